@@ -1,0 +1,65 @@
+"""Rule-based question drafter: the answer span becomes a wh-phrase, in situ.
+
+"Orla Vance opened the Brennock depot in March 2024." with the span
+"March 2024" becomes "Orla Vance opened the Brennock depot when?"; the span
+"Orla Vance" becomes "Who opened the Brennock depot in March 2024?".  Such
+in-situ questions keep every other word of the sentence, which is what the
+QA model needs to find the matching fact in the source.  Deterministic, fast,
+and a question for every span: the fallback behind the seq2seq drafter.
+"""
+from __future__ import annotations
+
+import re
+
+from qacheck.segment import Span
+
+_LEADING_MARKERS = re.compile(
+    r"^(however|also|in addition|additionally|meanwhile|moreover|furthermore|but|and|so|"
+    r"overall|in total|in short|finally)\s*,?\s+", re.IGNORECASE)
+_PLACE = {"GPE", "LOC", "FAC"}
+_TIME = {"DATE", "TIME"}
+_AMOUNT = {"MONEY", "QUANTITY"}
+_COUNT = {"CARDINAL", "NUM"}
+_PLACE_PREPS = {"in", "at", "near", "inside", "outside"}
+_TIME_PREPS = {"in", "on", "at", "during"}
+
+
+def wh_phrase(span: Span) -> tuple[str, bool]:
+    """The wh-phrase for a span, and whether it replaces the preposition before it too."""
+    if span.kind == "PERSON":
+        return "who", False
+    if span.kind in _TIME:
+        return "when", span.head_prep in _TIME_PREPS
+    if span.kind in _PLACE and span.head_prep in _PLACE_PREPS:
+        return "where", True
+    if span.kind in _AMOUNT:
+        return "how much", False
+    if span.kind in _COUNT:
+        return "how many", False
+    if span.kind == "PERCENT":
+        return "what percentage", False
+    if span.kind == "ORDINAL":
+        return "which", False
+    return "what", False
+
+
+def rule_question(sentence: str, span: Span) -> str:
+    """An in-situ question whose answer is ``span`` (a span of ``sentence``)."""
+    wh, eat_prep = wh_phrase(span)
+    a, b = (span.ask_start, span.ask_end) if span.ask_start >= 0 else (span.start, span.end)
+    if span.ask_head:
+        wh, eat_prep = ("who" if span.kind == "PERSON" and span.dep == "poss" else "which"), False
+        wh = f"whose {span.ask_head}" if wh == "who" else f"which {span.ask_head}"
+    before, after = sentence[:a], sentence[b:]
+    if eat_prep:
+        m = re.search(r"\b" + re.escape(span.head_prep) + r"\s+$", before, re.IGNORECASE)
+        if m:
+            before = before[: m.start()]
+    text = f"{before}{wh}{after}"
+    text = _LEADING_MARKERS.sub("", text.strip())
+    text = re.sub(r"\s+", " ", text).strip()
+    text = re.sub(r"\s+([,;:])", r"\1", text)
+    text = text.rstrip(" .!?;:,")
+    if text.startswith(wh):
+        text = wh[0].upper() + text[1:]
+    return text + "?"

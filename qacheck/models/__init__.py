@@ -1,0 +1,1 @@
+"""Model wrappers: load once, lazily, verify digests, answer or draft in batches."""

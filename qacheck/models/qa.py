@@ -1,0 +1,157 @@
+"""Extractive question answering with a no-answer option.
+
+One narrow interface: ``QAModel.answer(pairs)`` answers a batch of
+(question, context) pairs.  Contexts longer than the window are split into
+overlapping windows; the best span over all windows wins (n-best start/end
+decoding, bounded answer length), and the no-answer score is the smallest
+[CLS] score over the windows, as in common SQuAD 2.0 practice.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import torch
+
+from qacheck.models import lock
+from qacheck.models.runtime import autocast, cpu_has_bf16, quiet_transformers
+
+
+@dataclass(frozen=True)
+class Answer:
+    """The best span for one question: text, character offsets and confidence.
+
+    ``no_answer_prob`` is exp(null) / (exp(null) + exp(best span)), the
+    model's preference for "the context does not say" over its best span.
+    """
+
+    text: str
+    start: int
+    end: int
+    score: float
+    no_answer_prob: float
+
+    @property
+    def has_answer(self) -> bool:
+        return bool(self.text)
+
+
+class QAModel:
+    """The shipped QA model (or any folder written by ``qacheck train qa``)."""
+
+    def __init__(self, folder: Path | None = None, *, verify: bool = True, max_len: int = 384,
+                 stride: int = 128, max_answer_tokens: int = 30, n_best: int = 20,
+                 batch_size: int = 32, bf16: bool | None = None) -> None:
+        self.folder = Path(folder) if folder else None
+        self.verify = verify
+        self.max_len, self.stride = max_len, stride
+        self.max_answer_tokens, self.n_best = max_answer_tokens, n_best
+        self.batch_size = batch_size
+        self.bf16 = cpu_has_bf16() if bf16 is None else bf16
+        self._model = None
+        self._tok = None
+
+    @property
+    def digest(self) -> str:
+        """The model's digest from models.lock (or of the folder's files when unlocked)."""
+        if self.folder is None:
+            return lock.entry("qa").digest
+        files = lock.lock_model_folder(self.folder)
+        return lock.ModelEntry("qa", self.folder, files, {}).digest
+
+    def _load(self) -> None:
+        if self._model is not None:
+            return
+        from transformers import AutoModelForQuestionAnswering, AutoTokenizer
+
+        quiet_transformers()
+        folder = self.folder
+        if folder is None:
+            e = lock.entry("qa")
+            if self.verify:
+                e.verify()
+            folder = e.folder
+        self._tok = AutoTokenizer.from_pretrained(str(folder))
+        model = AutoModelForQuestionAnswering.from_pretrained(str(folder), dtype=torch.float32)
+        self._model = model.eval()
+
+    def answer(self, pairs: list[tuple[str, str]]) -> list[Answer]:
+        """Answer every (question, context) pair; empty text means no answer."""
+        if not pairs:
+            return []
+        self._load()
+        tok = self._tok
+        enc = tok([q for q, _ in pairs], [c for _, c in pairs], truncation="only_second",
+                  max_length=self.max_len, stride=self.stride, return_overflowing_tokens=True,
+                  return_offsets_mapping=True)
+        n_win = len(enc["input_ids"])
+        order = sorted(range(n_win), key=lambda w: len(enc["input_ids"][w]))
+        start_logits: list[np.ndarray | None] = [None] * n_win
+        end_logits: list[np.ndarray | None] = [None] * n_win
+        with torch.inference_mode(), autocast(self.bf16):
+            for b in range(0, n_win, self.batch_size):
+                idx = order[b:b + self.batch_size]
+                width = max(len(enc["input_ids"][w]) for w in idx)
+                ids = torch.full((len(idx), width), tok.pad_token_id, dtype=torch.long)
+                tt = torch.zeros((len(idx), width), dtype=torch.long)
+                mask = torch.zeros((len(idx), width), dtype=torch.long)
+                for r, w in enumerate(idx):
+                    n = len(enc["input_ids"][w])
+                    ids[r, :n] = torch.tensor(enc["input_ids"][w])
+                    tt[r, :n] = torch.tensor(enc["token_type_ids"][w])
+                    mask[r, :n] = 1
+                out = self._model(input_ids=ids, token_type_ids=tt, attention_mask=mask)
+                s = out.start_logits.float().numpy()
+                e = out.end_logits.float().numpy()
+                for r, w in enumerate(idx):
+                    n = len(enc["input_ids"][w])
+                    start_logits[w], end_logits[w] = s[r, :n], e[r, :n]
+        best: list[tuple[float, int, int, float] | None] = [None] * len(pairs)
+        null: list[float] = [math.inf] * len(pairs)
+        for w in range(n_win):
+            p = enc["overflow_to_sample_mapping"][w]
+            s, e = start_logits[w], end_logits[w]
+            null[p] = min(null[p], float(s[0] + e[0]))
+            span = self._best_span(s, e, enc.sequence_ids(w))
+            if span is not None and (best[p] is None or span[0] > best[p][0]):
+                offs = enc["offset_mapping"][w]
+                best[p] = (span[0], offs[span[1]][0], offs[span[2]][1], span[3])
+        answers = []
+        for p, (_, context) in enumerate(pairs):
+            if best[p] is None:
+                answers.append(Answer("", 0, 0, 0.0, 1.0))
+                continue
+            score, c0, c1, prob = best[p]
+            p_na = 1.0 / (1.0 + math.exp(min(50.0, max(-50.0, score - null[p]))))
+            answers.append(Answer(context[c0:c1], c0, c1, prob, p_na))
+        return answers
+
+    def _best_span(self, s: np.ndarray, e: np.ndarray, seq_ids: list[int | None]
+                   ) -> tuple[float, int, int, float] | None:
+        """n-best start/end search inside the context tokens of one window."""
+        ctx = np.array([sid == 1 for sid in seq_ids[:len(s)]])
+        if not ctx.any():
+            return None
+        s_m = np.where(ctx, s, -np.inf)
+        e_m = np.where(ctx, e, -np.inf)
+        starts = np.argsort(s_m)[::-1][: self.n_best]
+        ends = np.argsort(e_m)[::-1][: self.n_best]
+        best = None
+        for i in starts:
+            if not ctx[i]:
+                continue
+            for j in ends:
+                if not ctx[j] or j < i or j - i + 1 > self.max_answer_tokens:
+                    continue
+                sc = float(s[i] + e[j])
+                if best is None or sc > best[0]:
+                    best = (sc, int(i), int(j))
+        if best is None:
+            return None
+        # probability of the chosen span under the window's start and end softmax
+        ls = s - s.max()
+        le = e - e.max()
+        prob = float(np.exp(ls[best[1]]) / np.exp(ls).sum() * np.exp(le[best[2]]) / np.exp(le).sum())
+        return best[0], best[1], best[2], prob

@@ -1,0 +1,78 @@
+"""The seq2seq question drafter: (sentence, answer span) -> question, batched beam search."""
+from __future__ import annotations
+
+from pathlib import Path
+
+import torch
+
+from qacheck.models import lock
+from qacheck.models.runtime import autocast, cpu_has_bf16, quiet_transformers
+from qacheck.qg_format import qg_input
+
+
+class QGModel:
+    """The shipped seq2seq drafter (or a folder written by ``qacheck train qg``)."""
+
+    def __init__(self, folder: Path | None = None, *, verify: bool = True, num_beams: int = 4,
+                 max_new_tokens: int = 32, batch_size: int = 32, bf16: bool | None = None) -> None:
+        self.folder = Path(folder) if folder else None
+        self.verify = verify
+        self.num_beams, self.max_new_tokens, self.batch_size = num_beams, max_new_tokens, batch_size
+        self.bf16 = cpu_has_bf16() if bf16 is None else bf16
+        self._model = None
+        self._tok = None
+
+    @staticmethod
+    def available() -> bool:
+        """True when the package ships seq2seq weights (listed in models.lock)."""
+        try:
+            lock.entry("qg")
+        except lock.ModelIntegrityError:
+            return False
+        return True
+
+    @property
+    def digest(self) -> str:
+        if self.folder is None:
+            return lock.entry("qg").digest
+        return lock.ModelEntry("qg", self.folder, lock.lock_model_folder(self.folder), {}).digest
+
+    def _load(self) -> None:
+        if self._model is not None:
+            return
+        from transformers import AutoTokenizer, EncoderDecoderModel
+
+        quiet_transformers()
+        folder = self.folder
+        if folder is None:
+            e = lock.entry("qg")
+            if self.verify:
+                e.verify()
+            folder = e.folder
+        self._tok = AutoTokenizer.from_pretrained(str(folder))
+        self._model = EncoderDecoderModel.from_pretrained(str(folder), dtype=torch.float32).eval()
+
+    def generate(self, items: list[tuple[str, int, int]]) -> list[str]:
+        """One question per (sentence, span start, span end), in input order."""
+        if not items:
+            return []
+        self._load()
+        answers = [s[a:b] for s, a, b in items]
+        inputs = [qg_input(s, a, b) for s, a, b in items]
+        order = sorted(range(len(items)), key=lambda i: len(inputs[i]))
+        out: list[str] = [""] * len(items)
+        with torch.inference_mode(), autocast(self.bf16):
+            for b in range(0, len(order), self.batch_size):
+                idx = order[b:b + self.batch_size]
+                enc = self._tok([answers[i] for i in idx], [inputs[i] for i in idx],
+                                truncation="only_second", max_length=96, padding=True,
+                                return_tensors="pt")
+                gen = self._model.generate(**enc, num_beams=self.num_beams,
+                                           max_new_tokens=self.max_new_tokens,
+                                           no_repeat_ngram_size=3, early_stopping=True)
+                for i, text in zip(idx, self._tok.batch_decode(gen, skip_special_tokens=True)):
+                    text = " ".join(text.split()).replace(" ?", "?").strip()
+                    if text and not text.endswith("?"):
+                        text = text.rstrip(" .") + "?"
+                    out[i] = text[:1].upper() + text[1:]
+        return out

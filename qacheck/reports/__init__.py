@@ -1,0 +1,1 @@
+"""Renderers: results in, text out; no scoring logic here."""

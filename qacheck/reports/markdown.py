@@ -1,0 +1,49 @@
+"""Markdown for CI pages and pull-request comments."""
+from __future__ import annotations
+
+from typing import Any
+
+from qacheck.results import CAUTION
+
+
+def _f(v: float | None) -> str:
+    return "-" if v is None else f"{v:.3f}"
+
+
+def _md(text: str) -> str:
+    return text.replace("|", "\\|").replace("\n", " ")
+
+
+def render_run(summary: dict[str, Any], records: list[dict[str, Any]],
+               gate_messages: list[str] | None = None) -> str:
+    """A run summary: totals, failing cases with their flagged sentences, signature."""
+    st = summary["status"]
+    out = [f"## qacheck: {summary['set']} / {summary['outputs']}", "",
+           f"**{st.get('pass', 0)} passed, {st.get('fail', 0)} failed, {st.get('error', 0)} errors, "
+           f"{st.get('unscored', 0)} unscored** of {summary['cases']} cases; "
+           f"mean score {_f(summary['mean_score'])}", ""]
+    if gate_messages:
+        out += ["### Regression gate", ""] + [f"- {_md(m)}" for m in gate_messages] + [""]
+    bad = [r for r in records if r["status"] in ("fail", "error")]
+    if bad:
+        out += ["| case | status | score | why |", "|---|---|---|---|"]
+        out += [f"| {_md(r['id'])} | {r['status']} | {_f(r['score'])} | {_md('; '.join(r['reasons']))} |"
+                for r in bad]
+        out.append("")
+        for r in bad:
+            flagged = [s for s in (r.get("result") or {}).get("sentences", [])
+                       if s["label"] in ("contradicted", "unverifiable")]
+            if flagged:
+                out.append(f"<details><summary>{_md(r['id'])}: flagged sentences</summary>\n")
+                for s in flagged:
+                    out.append(f"- **{s['label']}**: {_md(s['text'])}")
+                    for q in s["questions"]:
+                        if q["outcome"] != "supported":
+                            out.append(f"  - {_md(q['question'])} output: `{_md(q['output_answer'])}`"
+                                       f", source: `{_md(str(q['source_answer']))}`")
+                out.append("\n</details>\n")
+    if summary["problems"]:
+        out += ["### Input problems", ""] + [f"- {_md(p)}" for p in summary["problems"]] + [""]
+    out += [f"<sub>signature: {summary['signature']['text']} (id {summary['signature']['id']}). "
+            f"{CAUTION}</sub>", ""]
+    return "\n".join(out)

