@@ -11,7 +11,6 @@ against source sentences.
 """
 from __future__ import annotations
 
-import json
 import random
 from collections.abc import Callable
 from dataclasses import dataclass
@@ -22,6 +21,7 @@ from typing import Any
 import numpy as np
 
 from qacheck.errors import InputError
+from qacheck.jsonl import iter_records
 
 UNSCORED_FALLBACK = 0.5  # a pair with no checkable question is neither faithful nor not
 
@@ -39,20 +39,7 @@ class Judged:
 def read_judgements(path: Path) -> list[Judged]:
     """Labelled records, with file:line errors for malformed ones."""
     out = []
-    try:
-        lines = path.read_text(encoding="utf-8").splitlines()
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read ({exc})", path=path) from exc
-    for lineno, line in enumerate(lines, 1):
-        if not line.strip():
-            continue
-        try:
-            rec = json.loads(line)
-        except json.JSONDecodeError as exc:
-            raise InputError(f"not valid JSON ({exc.msg})", path=path, line=lineno) from exc
-        for key in ("source", "output", "consistent"):
-            if key not in rec:
-                raise InputError("missing", path=path, line=lineno, field=key)
+    for lineno, rec in iter_records(path, ("source", "output", "consistent")):
         if not isinstance(rec["consistent"], bool):
             raise InputError("must be true or false", path=path, line=lineno, field="consistent")
         out.append(Judged(str(rec.get("id", lineno)), str(rec.get("dataset", path.stem)),
@@ -153,9 +140,9 @@ class MiniLMCosine:
 
 # --- the harness ----------------------------------------------------------------------
 
-def _unfaithful_spans(spans: tuple[dict[str, Any], ...]) -> list[dict[str, Any]]:
-    votes_given = any(s.get("votes") not in (None, 0) for s in spans)
-    return [s for s in spans if not votes_given or (s.get("votes") or 0) >= 2]
+def _votes_needed(records: list[Judged]) -> int:
+    """2 votes where the file records several annotators per span, else 1 (one annotation)."""
+    return 2 if any((s.get("votes") or 0) > 1 for r in records for s in r.spans) else 1
 
 
 def evaluate_file(records: list[Judged], results: list[dict[str, Any]],
@@ -176,8 +163,9 @@ def evaluate_file(records: list[Judged], results: list[dict[str, Any]],
     if any(r.spans for r in records):
         tp = fp = fn = 0
         typed = typed_match = 0
+        need = _votes_needed(records)
         for r, res in zip(records, results):
-            bad = _unfaithful_spans(r.spans)
+            bad = [sp for sp in r.spans if (sp.get("votes") or 1) >= need]
             for s in res["sentences"]:
                 hits = [sp for sp in bad if sp["start"] < s["end"] and s["start"] < sp["end"]]
                 flagged = s["label"] in ("contradicted", "unverifiable")

@@ -413,36 +413,31 @@ def _train_options(f):
     return f
 
 
-def _loop_config(seed, batch_size, lr, epochs, max_steps, checkpoint_every, no_bf16):
-    from qacheck.train.loop import LoopConfig
-
-    return LoopConfig(seed=seed, batch_size=batch_size, lr=lr, epochs=epochs, max_steps=max_steps,
-                      checkpoint_every=checkpoint_every, bf16=not no_bf16)
-
-
 @train.command("qa")
 @_train_options
-def train_qa_cmd(data, out, seed, batch_size, lr, epochs, max_steps, limit, checkpoint_every,
-                 no_bf16) -> None:
+def train_qa_cmd(**opts) -> None:
     """Fine-tune the QA model (with constructed unanswerables); resumes from OUT."""
     from qacheck.train.qa import train_qa
 
-    info = train_qa(Path(data), Path(out),
-                    _loop_config(seed, batch_size, lr, epochs, max_steps, checkpoint_every, no_bf16),
-                    limit=limit, log=err.print)
-    click.echo(json.dumps(info, indent=2))
+    _train(train_qa, **opts)
 
 
 @train.command("qg")
 @_train_options
-def train_qg_cmd(data, out, seed, batch_size, lr, epochs, max_steps, limit, checkpoint_every,
-                 no_bf16) -> None:
+def train_qg_cmd(**opts) -> None:
     """Train the seq2seq question drafter; resumes from OUT."""
     from qacheck.train.qg import train_qg
 
-    info = train_qg(Path(data), Path(out),
-                    _loop_config(seed, batch_size, lr, epochs, max_steps, checkpoint_every, no_bf16),
-                    limit=limit, log=err.print)
+    _train(train_qg, **opts)
+
+
+def _train(trainer, data, out, seed, batch_size, lr, epochs, max_steps, limit, checkpoint_every,
+           no_bf16) -> None:
+    from qacheck.train.loop import LoopConfig
+
+    cfg = LoopConfig(seed=seed, batch_size=batch_size, lr=lr, epochs=epochs, max_steps=max_steps,
+                     checkpoint_every=checkpoint_every, bf16=not no_bf16)
+    info = trainer(Path(data), Path(out), cfg, limit=limit, log=err.print)
     click.echo(json.dumps(info, indent=2))
 
 

@@ -15,8 +15,8 @@ from pathlib import Path
 import numpy as np
 import torch
 
-from qacheck.models import lock
-from qacheck.models.runtime import autocast, cpu_has_bf16, quiet_transformers
+from qacheck.models.base import LockedModel
+from qacheck.models.runtime import autocast, cpu_has_bf16
 
 
 @dataclass(frozen=True)
@@ -38,44 +38,28 @@ class Answer:
         return bool(self.text)
 
 
-class QAModel:
+class QAModel(LockedModel):
     """The shipped QA model (or any folder written by ``qacheck train qa``)."""
+
+    name = "qa"
 
     def __init__(self, folder: Path | None = None, *, verify: bool = True, max_len: int = 384,
                  stride: int = 128, max_answer_tokens: int = 30, n_best: int = 20,
                  batch_size: int = 32, bf16: bool | None = None) -> None:
-        self.folder = Path(folder) if folder else None
-        self.verify = verify
+        super().__init__(folder, verify)
         self.max_len, self.stride = max_len, stride
         self.max_answer_tokens, self.n_best = max_answer_tokens, n_best
         self.batch_size = batch_size
         self.bf16 = cpu_has_bf16() if bf16 is None else bf16
-        self._model = None
-        self._tok = None
-
-    @property
-    def digest(self) -> str:
-        """The model's digest from models.lock (or of the folder's files when unlocked)."""
-        if self.folder is None:
-            return lock.entry("qa").digest
-        files = lock.lock_model_folder(self.folder)
-        return lock.ModelEntry("qa", self.folder, files, {}).digest
 
     def _load(self) -> None:
         if self._model is not None:
             return
         from transformers import AutoModelForQuestionAnswering, AutoTokenizer
 
-        quiet_transformers()
-        folder = self.folder
-        if folder is None:
-            e = lock.entry("qa")
-            if self.verify:
-                e.verify()
-            folder = e.folder
-        self._tok = AutoTokenizer.from_pretrained(str(folder))
-        model = AutoModelForQuestionAnswering.from_pretrained(str(folder), dtype=torch.float32)
-        self._model = model.eval()
+        folder = self._resolve()
+        self._tok = AutoTokenizer.from_pretrained(folder)
+        self._model = AutoModelForQuestionAnswering.from_pretrained(folder, dtype=torch.float32).eval()
 
     def answer(self, pairs: list[tuple[str, str]]) -> list[Answer]:
         """Answer every (question, context) pair; empty text means no answer."""

@@ -6,21 +6,21 @@ from pathlib import Path
 import torch
 
 from qacheck.models import lock
-from qacheck.models.runtime import autocast, cpu_has_bf16, quiet_transformers
+from qacheck.models.base import LockedModel
+from qacheck.models.runtime import autocast, cpu_has_bf16
 from qacheck.qg_format import qg_input
 
 
-class QGModel:
+class QGModel(LockedModel):
     """The shipped seq2seq drafter (or a folder written by ``qacheck train qg``)."""
+
+    name = "qg"
 
     def __init__(self, folder: Path | None = None, *, verify: bool = True, num_beams: int = 4,
                  max_new_tokens: int = 32, batch_size: int = 32, bf16: bool | None = None) -> None:
-        self.folder = Path(folder) if folder else None
-        self.verify = verify
+        super().__init__(folder, verify)
         self.num_beams, self.max_new_tokens, self.batch_size = num_beams, max_new_tokens, batch_size
         self.bf16 = cpu_has_bf16() if bf16 is None else bf16
-        self._model = None
-        self._tok = None
 
     @staticmethod
     def available() -> bool:
@@ -31,26 +31,14 @@ class QGModel:
             return False
         return True
 
-    @property
-    def digest(self) -> str:
-        if self.folder is None:
-            return lock.entry("qg").digest
-        return lock.ModelEntry("qg", self.folder, lock.lock_model_folder(self.folder), {}).digest
-
     def _load(self) -> None:
         if self._model is not None:
             return
         from transformers import AutoTokenizer, EncoderDecoderModel
 
-        quiet_transformers()
-        folder = self.folder
-        if folder is None:
-            e = lock.entry("qg")
-            if self.verify:
-                e.verify()
-            folder = e.folder
-        self._tok = AutoTokenizer.from_pretrained(str(folder))
-        self._model = EncoderDecoderModel.from_pretrained(str(folder), dtype=torch.float32).eval()
+        folder = self._resolve()
+        self._tok = AutoTokenizer.from_pretrained(folder)
+        self._model = EncoderDecoderModel.from_pretrained(folder, dtype=torch.float32).eval()
 
     def generate(self, items: list[tuple[str, int, int]]) -> list[str]:
         """One question per (sentence, span start, span end), in input order."""

@@ -26,6 +26,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from qacheck.errors import InputError
+from qacheck.jsonl import iter_records
 
 _SENTENCE_END = re.compile(r"(?<=[.!?])\s+(?=[A-Z0-9\"'(])")
 
@@ -47,15 +48,6 @@ class QAExample:
         return not self.answers
 
 
-def file_digest(path: str | Path) -> str:
-    """sha256 of a file's bytes, recorded so a training run names its data exactly."""
-    h = hashlib.sha256()
-    with open(path, "rb") as fh:
-        for block in iter(lambda: fh.read(1 << 20), b""):
-            h.update(block)
-    return h.hexdigest()
-
-
 def _open_text(path: Path):
     if path.suffix == ".gz":
         return gzip.open(path, "rt", encoding="utf-8")
@@ -63,27 +55,17 @@ def _open_text(path: Path):
 
 
 def _from_jsonl(path: Path) -> Iterator[QAExample]:
-    with _open_text(path) as fh:
-        for lineno, line in enumerate(fh, 1):
-            if not line.strip():
-                continue
-            try:
-                rec = json.loads(line)
-            except json.JSONDecodeError as exc:
-                raise InputError(f"not valid JSON: {exc.msg}", path=path, line=lineno) from exc
-            for field in ("question", "context", "answers"):
-                if field not in rec:
-                    raise InputError("missing field", path=path, line=lineno, field=field)
-            ans = rec["answers"] or {}
-            yield QAExample(
-                qid=str(rec.get("id", f"{path.name}:{lineno}")),
-                title=str(rec.get("title", "")),
-                question=rec["question"],
-                context=rec["context"],
-                answers=tuple(ans.get("text", [])),
-                answer_starts=tuple(ans.get("answer_start", [])),
-                kind="original" if ans.get("text") else "squad2_impossible",
-            )
+    for lineno, rec in iter_records(path, ("question", "context", "answers")):
+        ans = rec["answers"] or {}
+        yield QAExample(
+            qid=str(rec.get("id", f"{path.name}:{lineno}")),
+            title=str(rec.get("title", "")),
+            question=rec["question"],
+            context=rec["context"],
+            answers=tuple(ans.get("text", [])),
+            answer_starts=tuple(ans.get("answer_start", [])),
+            kind="original" if ans.get("text") else "squad2_impossible",
+        )
 
 
 def _from_squad_json(path: Path) -> Iterator[QAExample]:

@@ -151,3 +151,29 @@ def train_loop(
     model.eval()
     _log(log_path, {"event": "end", "steps": total})
     return {"steps": total, "examples_seen": sum(len(b) for b in batches[:total])}
+
+
+def export_model(model: torch.nn.Module, tokenizer, out_dir: Path, record: dict[str, Any],
+                 cfg: LoopConfig, data: Path, summary: dict[str, Any]) -> dict[str, Any]:
+    """Write ``out_dir/model``: bf16 safetensors, tokenizer, and ``training.json``.
+
+    ``training.json`` records what reproduces the run (command, data sha256,
+    seed, steps, schedule) plus the trainer's own ``record``; ``qacheck models
+    lock`` copies it into models.lock.
+    """
+    import shutil
+    import sys
+
+    from qacheck.models.lock import sha256_file
+
+    export = out_dir / "model"
+    if export.exists():
+        shutil.rmtree(export)
+    model.to(torch.bfloat16).save_pretrained(export, safe_serialization=True)
+    tokenizer.save_pretrained(export)
+    info = {"command": " ".join(sys.argv), "data": str(data), "data_sha256": sha256_file(data),
+            "seed": cfg.seed, "steps": summary["steps"], "examples_seen": summary["examples_seen"],
+            "batch_size": cfg.batch_size, "lr": cfg.lr, "epochs": cfg.epochs, "bf16": cfg.bf16,
+            **record}
+    (export / "training.json").write_text(json.dumps(info, indent=2))
+    return info

@@ -6,17 +6,14 @@ the answer are labelled the same way.
 """
 from __future__ import annotations
 
-import json
-import shutil
-import sys
 import time
 from pathlib import Path
 from typing import Any
 
 import torch
 
-from qacheck.train.data import QAExample, file_digest, train_and_heldout
-from qacheck.train.loop import LoopConfig, train_loop
+from qacheck.train.data import QAExample, train_and_heldout
+from qacheck.train.loop import LoopConfig, export_model, train_loop
 
 MAX_LEN = 256
 STRIDE = 96
@@ -101,20 +98,7 @@ def train_qa(data: Path, out: Path, cfg: LoopConfig, limit: int | None = None,
         base, attention_probs_dropout_prob=0.0)
     summary = train_loop(model, len(feats), [len(f["input_ids"]) for f in feats],
                          make_collate(feats, tok.pad_token_id), out, cfg)
-    export = out / "model"
-    if export.exists():
-        shutil.rmtree(export)
-    model.to(torch.bfloat16).save_pretrained(export, safe_serialization=True)
-    tok.save_pretrained(export)
-    info = {
-        "command": " ".join(sys.argv),
-        "data": str(data), "data_sha256": file_digest(data),
-        "seed": cfg.seed, "steps": summary["steps"], "windows_seen": summary["examples_seen"],
-        "train_examples": len(train),
-        "train_unanswerable": sum(e.is_impossible for e in train),
-        "heldout_examples": len(held),
-        "negative_share": negative_share, "max_len": MAX_LEN, "stride": STRIDE,
-        "batch_size": cfg.batch_size, "lr": cfg.lr, "epochs": cfg.epochs, "bf16": cfg.bf16,
-    }
-    (export / "training.json").write_text(json.dumps(info, indent=2))
-    return info
+    return export_model(model, tok, out, {
+        "train_examples": len(train), "train_unanswerable": sum(e.is_impossible for e in train),
+        "heldout_examples": len(held), "negative_share": negative_share, "max_len": MAX_LEN,
+        "stride": STRIDE}, cfg, data, summary)

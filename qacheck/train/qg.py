@@ -11,9 +11,6 @@ cross-attention early in training.
 """
 from __future__ import annotations
 
-import json
-import shutil
-import sys
 import time
 from pathlib import Path
 from typing import Any
@@ -21,8 +18,8 @@ from typing import Any
 import torch
 
 from qacheck.qg_format import HL_CLOSE, HL_OPEN, qg_input
-from qacheck.train.data import file_digest, is_heldout_title, read_qa_file, split_sentences
-from qacheck.train.loop import LoopConfig, train_loop
+from qacheck.train.data import is_heldout_title, read_qa_file, split_sentences
+from qacheck.train.loop import LoopConfig, export_model, train_loop
 from qacheck.train.qa import base_model_path
 
 MAX_SRC = 96
@@ -127,17 +124,6 @@ def train_qg(data: Path, out: Path, cfg: LoopConfig, limit: int | None = None,
 
     lengths = [len(src["input_ids"][i]) + len(tgt["input_ids"][i]) for i in range(len(pairs))]
     summary = train_loop(wrapped, len(pairs), lengths, collate, out, cfg)
-    export = out / "model"
-    if export.exists():
-        shutil.rmtree(export)
-    model.to(torch.bfloat16).save_pretrained(export, safe_serialization=True)
-    tok.save_pretrained(export)
-    info = {
-        "command": " ".join(sys.argv), "data": str(data), "data_sha256": file_digest(data),
-        "seed": cfg.seed, "steps": summary["steps"], "pairs_seen": summary["examples_seen"],
-        "train_pairs": len(pairs), "label_smoothing": smoothing, "batch_size": cfg.batch_size,
-        "lr": cfg.lr, "epochs": cfg.epochs, "bf16": cfg.bf16, "max_src": MAX_SRC,
-        "max_tgt": MAX_TGT, "tied_encoder_decoder": False,
-    }
-    (export / "training.json").write_text(json.dumps(info, indent=2))
-    return info
+    return export_model(model, tok, out, {
+        "train_pairs": len(pairs), "label_smoothing": smoothing, "max_src": MAX_SRC,
+        "max_tgt": MAX_TGT, "tied_encoder_decoder": False}, cfg, data, summary)
