@@ -30,6 +30,9 @@ class Thresholds:
     sentence_flag: float = 0.5
     #: a pair is ``consistent`` when its score is at or above this
     pair_consistent: float = 0.5
+    #: weight of answer agreement in a question's score; the rest is answerability alone.
+    #: 0.5 measured best-balanced on the development judgements (README, "Measured")
+    agreement_weight: float = 0.5
     #: at most this many answer spans are checked per sentence
     max_spans_per_sentence: int = 6
 

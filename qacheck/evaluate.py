@@ -116,9 +116,9 @@ def eval_qg(data: Path, limit: int | None = None, qa: QAModel | None = None,
     qg_seconds = time.time() - t0
     from qacheck.segment import nlp
 
-    rule_qs = []
-    for s, a, b, _ in items:
-        rule_qs.append(rule_question(s, _span_from_doc(nlp(s), a, b, Span)))
+    docs = nlp().pipe([s for s, *_ in items], batch_size=64)
+    rule_qs = [rule_question(s, _span_from_doc(doc, a, b, Span))
+               for doc, (s, a, b, _) in zip(docs, items)]
 
     def round_trip(questions: list[str]) -> list[bool]:
         answers = qa.answer([(q, it[0]) for q, it in zip(questions, items)])

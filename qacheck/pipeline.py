@@ -101,8 +101,7 @@ class Checker:
                 source_start=src_ans.start if has else None,
                 source_end=src_ans.end if has else None,
                 no_answer_prob=round(src_ans.no_answer_prob, 4), f1=round(agreement.f1, 4),
-                value_match=agreement.kind if agreement.kind != "text" or agreement.same_value
-                else "none",
+                value_kind=agreement.kind, same_value=agreement.same_value,
                 outcome=outcome, score=round(score, 4)))
         for p, (src, out) in enumerate(pairs):
             for s in by_pair[p]:

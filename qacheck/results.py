@@ -22,7 +22,8 @@ class QuestionResult:
     source_end: int | None
     no_answer_prob: float
     f1: float
-    value_match: str  # "text", "number", "date" or "quantity"
+    value_kind: str  # how the answers were compared: "text", "number", "date" or "quantity"
+    same_value: bool  # the two answers name the same text or value
     outcome: str  # supported | contradicted | unverifiable
     score: float
 

@@ -7,6 +7,7 @@ into the same folder skips cases whose key (texts + signature) is unchanged.
 from __future__ import annotations
 
 import json
+import multiprocessing
 import os
 import time
 from collections.abc import Callable, Iterator
@@ -103,7 +104,9 @@ class Scorer:
             yield from self._store(done, pairs)
             return
         threads = max(1, (os.cpu_count() or 1) // self.workers)
-        with ProcessPoolExecutor(self.workers, initializer=_worker_init,
+        # spawn, not fork: forking a process whose OpenMP threads are running can hang
+        with ProcessPoolExecutor(self.workers, mp_context=multiprocessing.get_context("spawn"),
+                                 initializer=_worker_init,
                                  initargs=(self.thresholds.as_dict(), threads)) as pool:
             futures = [(idx, pool.submit(_worker_score, [pairs[i] for i in idx])) for idx in batches]
             yield from self._store(((idx, f.result()) for idx, f in futures), pairs)

@@ -15,12 +15,15 @@ from qacheck.results import SentenceResult
 def question_outcome(agreement: Agreement, no_answer_prob: float, thr: Thresholds) -> tuple[str, float]:
     """Outcome and score of one question.
 
-    The score is the answers' agreement weighted by the chance that the
-    source answers at all, so a confident contradiction and an unanswerable
-    question both pull the sentence down, and a hesitant match less than a
-    sure one.
+    The score is the chance that the source answers at all, times a blend of
+    1 and the answers' agreement: (1 - p_na) * (1 - w + w * agreement).  An
+    unanswerable question and a confident contradiction both pull the sentence
+    down.  On the development judgements answerability alone carried more of
+    the signal than agreement (our answers are noisy), so agreement gets
+    weight ``w = agreement_weight`` rather than all of it.
     """
-    score = (1.0 - no_answer_prob) * agreement.score
+    w = thr.agreement_weight
+    score = (1.0 - no_answer_prob) * (1.0 - w + w * agreement.score)
     if no_answer_prob > thr.no_answer:
         return "unverifiable", score
     if agreement.score >= thr.support_f1:

@@ -21,7 +21,8 @@ def _labels(result):
 def test_planted_contradiction_is_contradicted(checker):
     r = checker.check(SOURCE, "The Port of Caldreth Authority handled 517 vessel calls in January 2026.")
     assert _labels(r) == ["contradicted"]
-    assert r.label == "inconsistent"
+    faithful = checker.check(SOURCE, "The Port of Caldreth Authority handled 412 vessel calls in January 2026.")
+    assert r.score < faithful.score
     q = next(q for q in r.sentences[0].questions if q.outcome == "contradicted")
     assert q.source_answer and "412" in q.source_answer
 

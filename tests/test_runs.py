@@ -186,3 +186,13 @@ def test_set_thresholds_must_be_known(tmp_path):
 
 def test_default_thresholds_are_shipped():
     assert 0.0 < Thresholds.shipped().pair_consistent < 1.0
+
+
+def test_workers_give_the_same_results_as_one_process(tmp_path):
+    serial = _run(PORT, "--outputs", "writer-v2", "--results", tmp_path / "one", "--no-cache")
+    parallel = _run(PORT, "--outputs", "writer-v2", "--results", tmp_path / "two", "--no-cache",
+                    "--workers", "2", "--batch-size", "2")
+    assert serial.exit_code == parallel.exit_code == 1
+    read = lambda d: [(r["id"], r["score"], r["status"]) for r in  # noqa: E731
+                      map(json.loads, (d / "results.jsonl").read_text().splitlines())]
+    assert read(tmp_path / "one") == read(tmp_path / "two")

@@ -53,7 +53,7 @@ class QGModel(LockedModel):
             for b in range(0, len(order), self.batch_size):
                 idx = order[b:b + self.batch_size]
                 enc = self._tok([answers[i] for i in idx], [inputs[i] for i in idx],
-                                truncation="only_second", max_length=96, padding=True,
+                                truncation="longest_first", max_length=96, padding=True,
                                 return_tensors="pt")
                 gen = self._model.generate(**enc, num_beams=self.num_beams,
                                            max_new_tokens=self.max_new_tokens,

@@ -46,11 +46,18 @@ def qg_pairs(path: Path) -> list[tuple[str, str, str]]:
 
 
 def build_model(base: str, tokenizer):
-    """The warm-started encoder-decoder, configured for generation with the BERT vocabulary."""
-    from transformers import EncoderDecoderModel
+    """The warm-started encoder-decoder, configured for generation with the BERT vocabulary.
 
-    model = EncoderDecoderModel.from_encoder_decoder_pretrained(
-        base, base, encoder_attention_probs_dropout_prob=0.0, decoder_attention_probs_dropout_prob=0.0)
+    Eager attention: at these short lengths it trains about a quarter faster on
+    this CPU than the fused SDPA kernel, whose backward pass dominates.
+    """
+    from transformers import BertLMHeadModel, BertModel, EncoderDecoderModel
+
+    common = {"attn_implementation": "eager", "attention_probs_dropout_prob": 0.0}
+    encoder = BertModel.from_pretrained(base, add_pooling_layer=False, **common)
+    decoder = BertLMHeadModel.from_pretrained(base, is_decoder=True, add_cross_attention=True,
+                                              **common)
+    model = EncoderDecoderModel(encoder=encoder, decoder=decoder)
     model.config.decoder_start_token_id = tokenizer.cls_token_id
     model.config.eos_token_id = tokenizer.sep_token_id
     model.config.pad_token_id = tokenizer.pad_token_id
@@ -97,7 +104,7 @@ def train_qg(data: Path, out: Path, cfg: LoopConfig, limit: int | None = None,
     pairs = qg_pairs(data)
     if limit:
         pairs = pairs[:limit]
-    src = tok([p[0] for p in pairs], [p[1] for p in pairs], truncation="only_second",
+    src = tok([p[0] for p in pairs], [p[1] for p in pairs], truncation="longest_first",
               max_length=MAX_SRC)
     tgt = tok([p[2] for p in pairs], truncation=True, max_length=MAX_TGT)
     log(f"{len(pairs)} QG pairs tokenised in {time.time() - t0:.0f}s")
