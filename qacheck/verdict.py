@@ -35,7 +35,9 @@ def sentence_verdict(sentence: SentenceResult, thr: Thresholds) -> None:
     """Fill the sentence's score and label from its questions (in place).
 
     A sentence with no surviving question is ``unchecked``, never counted as
-    faithful.  A flagged sentence takes the label of its most common failing
+    faithful.  The score is the mean of its question scores; the label is
+    ``supported`` unless a question failed (contradicted or unverifiable, with
+    a score under ``sentence_flag``).  A flagged sentence takes the label of its most common failing
     outcome, contradictions winning ties (they are the graver error).
     """
     qs = sentence.questions
@@ -43,10 +45,9 @@ def sentence_verdict(sentence: SentenceResult, thr: Thresholds) -> None:
         sentence.score, sentence.label = None, "unchecked"
         return
     sentence.score = sum(q.score for q in qs) / len(qs)
-    if sentence.score >= thr.sentence_flag:
-        sentence.label = "supported"
-        return
-    fails = Counter(q.outcome for q in qs if q.outcome != "supported")
+    # one question the source contradicts or cannot answer flags the sentence: a fact is
+    # wrong or unsupported even when the sentence's other facts check out
+    fails = Counter(q.outcome for q in qs if q.outcome != "supported" and q.score < thr.sentence_flag)
     if not fails:
         sentence.label = "supported"
     else:

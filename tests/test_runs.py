@@ -195,4 +195,7 @@ def test_workers_give_the_same_results_as_one_process(tmp_path):
     assert serial.exit_code == parallel.exit_code == 1
     read = lambda d: [(r["id"], r["score"], r["status"]) for r in  # noqa: E731
                       map(json.loads, (d / "results.jsonl").read_text().splitlines())]
-    assert read(tmp_path / "one") == read(tmp_path / "two")
+    one, two = read(tmp_path / "one"), read(tmp_path / "two")
+    assert [(i, st) for i, _, st in one] == [(i, st) for i, _, st in two]
+    # bf16 sums differ in the last bits between 1 and 2 threads per process
+    assert all(abs(a[1] - b[1]) < 0.02 for a, b in zip(one, two))
