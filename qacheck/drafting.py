@@ -48,8 +48,9 @@ def rule_question(sentence: str, span: Span) -> str:
     wh, eat_prep = wh_phrase(span)
     a, b = (span.ask_start, span.ask_end) if span.ask_start >= 0 else (span.start, span.end)
     if span.ask_head:
-        wh, eat_prep = ("who" if span.kind == "PERSON" and span.dep == "poss" else "which"), False
-        wh = f"whose {span.ask_head}" if wh == "who" else f"which {span.ask_head}"
+        # the span modifies a noun phrase: ask which one ("whose" for a possessor person)
+        owner = span.kind == "PERSON" and span.dep == "poss"
+        wh, eat_prep = f"{'whose' if owner else 'which'} {span.ask_head}", False
     before, after = sentence[:a], sentence[b:]
     if eat_prep:
         m = re.search(r"\b" + re.escape(span.head_prep) + r"\s+$", before, re.IGNORECASE)
