@@ -216,7 +216,9 @@ def run_agreement(files: list[Path], scorer, limit: int | None = None, seed: int
         fig = evaluate_file(records, results, baselines, scorer.thresholds.pair_consistent)
         per_file[path.stem] = fig
         scores = [res["score"] if res["score"] is not None else UNSCORED_FALLBACK for res in results]
-        raw[path.stem] = {"y": [r.consistent for r in records], "scores": scores}
+        raw[path.stem] = {"y": [r.consistent for r in records], "scores": scores,
+                          "features": [_evidence_of(r, res) for r, res in zip(records, results)],
+                          "records": records, "results": results, "baselines": baselines}
         pooled_y += raw[path.stem]["y"]
         pooled_s += scores
     overall = {"n": len(pooled_y), "roc_auc": roc_auc(pooled_y, pooled_s)}
@@ -224,22 +226,62 @@ def run_agreement(files: list[Path], scorer, limit: int | None = None, seed: int
             "limit": limit, "seed": seed}
 
 
-def fit_threshold(raw: dict[str, Any]) -> dict[str, Any]:
-    """The pair cut maximising balanced accuracy on all files, with leave-one-file-out figures.
+def rejudged_figures(raw: dict[str, Any], thresholds, model) -> dict[str, Any]:
+    """Per-file figures with every result judged again under ``model`` and ``thresholds``.
 
-    Each file's held-out figure uses a cut fitted on the other files only, so
-    it estimates how the shipped threshold does on data it was not fitted on.
+    No model runs: verdicts follow from the cached question results.  After a
+    fit these are in-sample figures (the model has seen these records).
     """
-    all_y = [y for f in raw.values() for y in f["y"]]
-    all_s = [s for f in raw.values() for s in f["scores"]]
-    cut, ba = best_threshold(all_y, all_s)
-    held = {}
+    from qacheck.results import PairResult
+    from qacheck.verdict import judge
+
+    out = {}
     for name, f in raw.items():
-        others_y = [y for n, g in raw.items() if n != name for y in g["y"]]
-        others_s = [s for n, g in raw.items() if n != name for s in g["scores"]]
-        if len(set(others_y)) < 2:
+        results = [judge(PairResult.from_dict({**res, "source": r.source, "output": r.output}),
+                         thresholds, model).to_dict() for r, res in zip(f["records"], f["results"])]
+        out[name] = evaluate_file(f["records"], results, f["baselines"], thresholds.pair_consistent)
+    return out
+
+
+def _evidence_of(record: Judged, result: dict[str, Any]) -> dict[str, float] | None:
+    """The pair model's features, recomputed from a (possibly cached) result and its texts."""
+    from qacheck.pairmodel import evidence
+    from qacheck.results import PairResult
+
+    return evidence(PairResult.from_dict(result).sentences, record.source, record.output)
+
+
+def fit_pair_model(raw: dict[str, Any], c: float = 0.1) -> dict[str, Any]:
+    """Fit the pair model on every file, with leave-one-file-out figures and the pair cut.
+
+    Each file's held-out figures come from a model *and* a cut fitted on the
+    other files only: an estimate of how the shipped model does on data it
+    never saw.  Unscored pairs (no question survived) have no features and
+    are left out of fitting; in the held-out figures they keep the
+    neutral score the harness gives them.
+    """
+    from qacheck.pairmodel import fit
+
+    def rows(names):
+        return [(f, y) for n in names for f, y in zip(raw[n]["features"], raw[n]["y"])
+                if f is not None]
+
+    def scores(model, name):
+        return [model.probability(f) if f is not None else UNSCORED_FALLBACK
+                for f in raw[name]["features"]]
+
+    held = {}
+    for name in raw:
+        train = rows([n for n in raw if n != name])
+        if len({y for _, y in train}) < 2:
             continue
-        c, _ = best_threshold(others_y, others_s)
-        held[name] = {"cut_from_other_files": c,
-                      "balanced_accuracy": balanced_accuracy(f["y"], [s >= c for s in f["scores"]])}
-    return {"pair_consistent": cut, "balanced_accuracy_fitted": ba, "leave_one_file_out": held}
+        model = fit([f for f, _ in train], [y for _, y in train], c)
+        cut, _ = best_threshold([y for _, y in train], [model.probability(f) for f, _ in train])
+        s = scores(model, name)
+        held[name] = {"roc_auc": roc_auc(raw[name]["y"], s), "cut_from_other_files": cut,
+                      "balanced_accuracy": balanced_accuracy(raw[name]["y"], [v >= cut for v in s])}
+    every = rows(list(raw))
+    model = fit([f for f, _ in every], [y for _, y in every], c)
+    cut, ba = best_threshold([y for _, y in every], [model.probability(f) for f, _ in every])
+    return {"model": model, "pair_consistent": cut, "balanced_accuracy_fitted": ba,
+            "n_fitted": len(every), "leave_one_file_out": held}

@@ -228,14 +228,16 @@ def _score_outputs(set_dir: str, outputs: str) -> Path:
 @click.option("--limit", type=int, help="A fixed random sample of N records per file.")
 @click.option("--seed", default=0, show_default=True, help="Seed of the sample.")
 @click.option("--json", "as_json", is_flag=True)
-@click.option("--fit", is_flag=True, help="Fit the pair threshold on these files and ship it.")
+@click.option("--fit", is_flag=True,
+              help="Fit the pair model and threshold on these files (leave-one-file-out "
+                   "figures reported) and ship them.")
 @click.option("--no-cosine", is_flag=True, help="Skip the MiniLM cosine baseline.")
 @click.option("--cache", "cache_path", type=click.Path(dir_okay=False))
 def agreement(files, limit, seed, as_json, fit, no_cosine, cache_path) -> None:
     """Agreement with human faithfulness judgements (ROC AUC, balanced accuracy, sentences)."""
     from rich.progress import Progress
 
-    from qacheck.agreement import fit_threshold, run_agreement
+    from qacheck.agreement import fit_pair_model, rejudged_figures, run_agreement
     from qacheck.cache import ResultCache
     from qacheck.config import Thresholds
     from qacheck.runner import Scorer
@@ -253,9 +255,12 @@ def agreement(files, limit, seed, as_json, fit, no_cosine, cache_path) -> None:
                             with_cosine=not no_cosine)
     raw = res.pop("raw")
     if fit:
-        fitted = fit_threshold(raw)
+        fitted = fit_pair_model(raw)
+        _ship_pair_model(fitted, files, limit, seed, res["signature"]["id"])
+        thr = scorer.thresholds.merged({"pair_consistent": round(fitted["pair_consistent"], 4)})
+        fitted["in_sample"] = rejudged_figures(raw, thr, fitted["model"])
+        fitted["model"] = fitted["model"].as_dict()
         res["fit"] = fitted
-        _ship_threshold(fitted, files, limit, seed)
     if as_json:
         click.echo(json.dumps(res, indent=2))
         return
@@ -264,19 +269,27 @@ def agreement(files, limit, seed, as_json, fit, no_cosine, cache_path) -> None:
     render_agreement(res, Console())
 
 
-def _ship_threshold(fitted: dict, files, limit, seed) -> None:
-    """Write the fitted pair threshold into the package's thresholds.json with its provenance."""
+def _ship_pair_model(fitted: dict, files, limit, seed, scored_under: str) -> None:
+    """Write the fitted pair model (pair_model.json) and cut (thresholds.json) into the package,
+    each with the files, sample and held-out figures it came from."""
     from importlib import resources
 
-    path = Path(str(resources.files("qacheck").joinpath("thresholds.json")))
+    origin = {"fitted_by": "qacheck agreement --fit", "files": [Path(f).name for f in files],
+              "limit": limit, "seed": seed, "scored_under_signature": scored_under,
+              "n_fitted": fitted["n_fitted"],
+              "balanced_accuracy_fitted": round(fitted["balanced_accuracy_fitted"], 4),
+              "leave_one_file_out": fitted["leave_one_file_out"],
+              "date": time.strftime("%Y-%m-%d")}
+    package = Path(str(resources.files("qacheck")))
+    (package / "pair_model.json").write_text(json.dumps(
+        {"origin": origin, "model": fitted["model"].as_dict()}, indent=2) + "\n", encoding="utf-8")
+    path = package / "thresholds.json"
     data = json.loads(path.read_text(encoding="utf-8"))
     data["thresholds"]["pair_consistent"] = round(fitted["pair_consistent"], 4)
-    data["origin"] = {"fitted_by": "qacheck agreement --fit",
-                      "files": [Path(f).name for f in files], "limit": limit, "seed": seed,
-                      "balanced_accuracy_fitted": round(fitted["balanced_accuracy_fitted"], 4),
-                      "leave_one_file_out": fitted["leave_one_file_out"]}
+    data["origin"] = origin
     path.write_text(json.dumps(data, indent=2) + "\n", encoding="utf-8")
-    err.print(f"wrote pair_consistent = {fitted['pair_consistent']:.4f} to {path}")
+    err.print(f"wrote the pair model to {package / 'pair_model.json'} and "
+              f"pair_consistent = {fitted['pair_consistent']:.4f} to {path}")
 
 
 # --- models ---------------------------------------------------------------------------
@@ -424,20 +437,25 @@ def train_qa_cmd(**opts) -> None:
 
 @train.command("qg")
 @_train_options
-def train_qg_cmd(**opts) -> None:
+@click.option("--init", type=click.Path(exists=True, file_okay=False),
+              help="Continue from this drafter folder (e.g. qacheck/weights/qg) instead of the base.")
+@click.option("--max-novel", default=1.0, show_default=True,
+              help="Drop training pairs whose question has more than this share of content "
+                   "words absent from its sentence.")
+def train_qg_cmd(init, max_novel, **opts) -> None:
     """Train the seq2seq question drafter; resumes from OUT."""
     from qacheck.train.qg import train_qg
 
-    _train(train_qg, **opts)
+    _train(train_qg, **opts, init=Path(init) if init else None, max_novel=max_novel)
 
 
 def _train(trainer, data, out, seed, batch_size, lr, epochs, max_steps, limit, checkpoint_every,
-           no_bf16) -> None:
+           no_bf16, **extra) -> None:
     from qacheck.train.loop import LoopConfig
 
     cfg = LoopConfig(seed=seed, batch_size=batch_size, lr=lr, epochs=epochs, max_steps=max_steps,
                      checkpoint_every=checkpoint_every, bf16=not no_bf16)
-    info = trainer(Path(data), Path(out), cfg, limit=limit, log=err.print)
+    info = trainer(Path(data), Path(out), cfg, limit=limit, log=err.print, **extra)
     click.echo(json.dumps(info, indent=2))
 
 

@@ -26,9 +26,8 @@ class Thresholds:
     support_f1: float = 0.5
     #: a question survives the round trip when the output answer has this F1 with its span
     round_trip_f1: float = 0.5
-    #: a sentence is flagged when its score is below this
-    sentence_flag: float = 0.5
-    #: a pair is ``consistent`` when its score is at or above this
+    #: a pair (or a sentence, scored alone) is ``consistent`` when the pair model's
+    #: probability is at or above this
     pair_consistent: float = 0.5
     #: weight of answer agreement in a question's score; the rest is answerability alone.
     #: 0.5 measured best-balanced on the development judgements (README, "Measured")

@@ -104,7 +104,7 @@ def eval_qg(data: Path, limit: int | None = None, qa: QAModel | None = None,
     import sacrebleu
     from rouge_score import rouge_scorer
 
-    from qacheck.drafting import rule_question
+    from qacheck.drafting import rule_drafts
     from qacheck.segment import Span
 
     qa = qa or QAModel()
@@ -117,23 +117,31 @@ def eval_qg(data: Path, limit: int | None = None, qa: QAModel | None = None,
     from qacheck.segment import nlp
 
     docs = nlp().pipe([s for s, *_ in items], batch_size=64)
-    rule_qs = [rule_question(s, _span_from_doc(doc, a, b, Span))
-               for doc, (s, a, b, _) in zip(docs, items)]
+    drafts = [rule_drafts(s, _span_from_doc(doc, a, b, Span)) for doc, (s, a, b, _) in zip(docs, items)]
+    rule_qs = [d[0] for d in drafts]
+    plain_qs = [d[1] if len(d) > 1 else "" for d in drafts]
 
     def round_trip(questions: list[str]) -> list[bool]:
-        answers = qa.answer([(q, it[0]) for q, it in zip(questions, items)])
-        return [bool(q) and ans.has_answer and ans.no_answer_prob <= thr.no_answer
-                and token_f1(ans.text, it[0][it[1]:it[2]]) >= 0.5
-                for q, ans, it in zip(questions, answers, items)]
+        asked = [i for i, q in enumerate(questions) if q]
+        answers = qa.answer([(questions[i], items[i][0]) for i in asked])
+        ok = [False] * len(items)
+        for i, ans in zip(asked, answers):
+            s, a, b, _ = items[i]
+            ok[i] = (ans.has_answer and ans.no_answer_prob <= thr.no_answer
+                     and token_f1(ans.text, s[a:b]) >= 0.5)
+        return ok
 
-    rt_model, rt_rules = round_trip(model_qs), round_trip(rule_qs)
+    rt_model, rt_typed, rt_plain = round_trip(model_qs), round_trip(rule_qs), round_trip(plain_qs)
+    rt_rules = [t or p for t, p in zip(rt_typed, rt_plain)]
     final = [m or r for m, r in zip(rt_model, rt_rules)]
     refs = [it[3] for it in items]
+    n = max(1, len(items))
     out: dict[str, Any] = {
         "n": len(items),
-        "round_trip": sum(final) / max(1, len(items)),
-        "round_trip_rules": sum(rt_rules) / max(1, len(items)),
-        "share_seq2seq": sum(rt_model) / max(1, len(items)),
+        "round_trip": sum(final) / n,
+        "round_trip_rules": sum(rt_rules) / n,
+        "round_trip_rules_typed": sum(rt_typed) / n,
+        "share_seq2seq": sum(rt_model) / n,
     }
     if qg:
         scorer = rouge_scorer.RougeScorer(["rougeL"], use_stemmer=True)

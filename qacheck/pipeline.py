@@ -14,13 +14,14 @@ from pathlib import Path
 
 from qacheck.compare import compare_answers, token_f1
 from qacheck.config import Thresholds, signature
-from qacheck.drafting import rule_question
+from qacheck.drafting import keeps_to_sentence, rule_drafts
 from qacheck.errors import InputError
 from qacheck.models.qa import QAModel
 from qacheck.models.qg import QGModel
+from qacheck.pairmodel import PairModel
 from qacheck.results import PairResult, QuestionResult, SentenceResult
 from qacheck.segment import Sentence, Span, segment_many
-from qacheck.verdict import pair_verdict, question_outcome, sentence_verdict
+from qacheck.verdict import judge, question_outcome
 
 
 @dataclass
@@ -42,8 +43,9 @@ class Checker:
     """
 
     def __init__(self, thresholds: Thresholds | None = None, qa: QAModel | None = None,
-                 qg: QGModel | None | bool = None) -> None:
+                 qg: QGModel | None | bool = None, pair_model: PairModel | None = None) -> None:
         self.thresholds = thresholds or Thresholds.shipped()
+        self.pair_model = pair_model or PairModel.shipped()
         self.qa = qa or QAModel()
         if qg is None:
             qg = QGModel() if QGModel.available() else False
@@ -61,7 +63,7 @@ class Checker:
 
     @property
     def signature(self) -> dict:
-        digests = {"qa": self.qa.digest}
+        digests = {"qa": self.qa.digest, "pair": self.pair_model.digest}
         if self.qg is not None:
             digests["qg"] = self.qg.digest
         return signature(digests, self.thresholds)
@@ -104,49 +106,58 @@ class Checker:
                 value_kind=agreement.kind, same_value=agreement.same_value,
                 outcome=outcome, score=round(score, 4)))
         for p, (src, out) in enumerate(pairs):
-            for s in by_pair[p]:
-                sentence_verdict(s, thr)
-                if s.score is not None:
-                    s.score = round(s.score, 4)
-            score, label, counts = pair_verdict(by_pair[p], thr)
-            results.append(PairResult(None if score is None else round(score, 4), label,
-                                      by_pair[p], sig, counts, src, out))
+            results.append(judge(PairResult(None, "unscored", by_pair[p], sig, {}, src, out),
+                                 thr, self.pair_model))
         return results
 
     def _draft(self, segmented: list[list[Sentence]]) -> list[_Candidate]:
-        """Every span gets a rule-based draft and, when shipped, a seq2seq fallback (one batch)."""
+        """Every span's drafts, preferred first: the rule drafts, then seq2seq (when shipped).
+
+        The in-situ rule draft keeps every other word of the sentence, which is
+        what lets the QA model find the same fact in the source; a seq2seq
+        question is a paraphrase and may bring words the sentence never had,
+        which the source then "cannot answer".  So the seq2seq question is the
+        fallback for spans whose rule drafts do not round-trip, and only when
+        it stays within its sentence (``keeps_to_sentence``).
+        """
         with self._stage("draft_rules"):
-            cands = [_Candidate(p, si, span, s.text, s.start, [("rules", rule_question(s.text, span))])
+            cands = [_Candidate(p, si, span, s.text, s.start,
+                                [("rules", q) for q in rule_drafts(s.text, span)])
                      for p, sents in enumerate(segmented) for si, s in enumerate(sents)
                      for span in s.spans]
         if self.qg is not None and cands:
             with self._stage("draft_seq2seq"):
                 generated = self.qg.generate([(c.sentence_text, c.span.start, c.span.end)
                                               for c in cands])
-            # The in-situ rule draft goes first: it keeps the sentence's own words, and the
-            # shipped seq2seq drafter (BLEU-4 8.7) often adds content the sentence never had,
-            # which then reads as "unverifiable" in the source. It is the fallback for spans
-            # whose rule draft does not round-trip.
             for c, q in zip(cands, generated):
-                if q and c.span.text.lower() not in q.lower():
+                if q and c.span.text.lower() not in q.lower() and keeps_to_sentence(q, c.sentence_text):
                     c.drafts.append(("seq2seq", q))
         return cands
 
     def _round_trip(self, cands: list[_Candidate], pairs: list[tuple[str, str]]):
-        """Keep, per span, the first draft whose answer on the output gives back the span."""
-        asks = [(c, d, q) for c in cands for d, q in c.drafts]
-        answers = self.qa.answer([(q, pairs[c.pair][1]) for c, _, q in asks])
-        kept, done = [], set()
-        for (c, drafter, q), a in zip(asks, answers):
-            if id(c) in done:
-                continue
-            span_abs = (c.offset + c.span.start, c.offset + c.span.end)
-            overlaps = a.start < span_abs[1] and span_abs[0] < a.end
-            if (a.has_answer and a.no_answer_prob <= self.thresholds.no_answer and overlaps
-                    and token_f1(a.text, c.span.text) >= self.thresholds.round_trip_f1):
-                kept.append((c, drafter, q, a))
-                done.add(id(c))
-        return kept
+        """Keep, per span, the first draft whose answer on the output gives back the span.
+
+        Drafts are tried in rounds (every span's first draft in one QA batch,
+        then the next draft of the spans still open), so a fallback costs a
+        QA call only where the preferred draft failed.
+        """
+        kept, open_cands = [], list(cands)
+        for rank in range(max((len(c.drafts) for c in cands), default=0)):
+            asks = [c for c in open_cands if rank < len(c.drafts)]
+            answers = self.qa.answer([(c.drafts[rank][1], pairs[c.pair][1]) for c in asks])
+            failed = []
+            for c, a in zip(asks, answers):
+                span_abs = (c.offset + c.span.start, c.offset + c.span.end)
+                overlaps = a.start < span_abs[1] and span_abs[0] < a.end
+                if (a.has_answer and a.no_answer_prob <= self.thresholds.no_answer and overlaps
+                        and token_f1(a.text, c.span.text) >= self.thresholds.round_trip_f1):
+                    kept.append((c, *c.drafts[rank], a))
+                else:
+                    failed.append(c)
+            open_cands = failed
+        # candidates in their original order, so results do not depend on which round kept them
+        order = {id(c): i for i, c in enumerate(cands)}
+        return sorted(kept, key=lambda k: order[id(k[0])])
 
 
 def read_text(path: str | Path, field: str) -> str:

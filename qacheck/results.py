@@ -37,6 +37,10 @@ class SentenceResult:
     label: str  # supported | contradicted | unverifiable | unchecked
     questions: list[QuestionResult] = field(default_factory=list)
     spans_considered: int = 0
+    #: the pair model's P(consistent) for this sentence alone; None when unchecked
+    probability: float | None = None
+    #: content words of the sentence that the source never uses (stemmed match)
+    novel_words: list[str] = field(default_factory=list)
 
 
 @dataclass
@@ -48,6 +52,8 @@ class PairResult:
     counts: dict[str, int] = field(default_factory=dict)
     source: str = ""
     output: str = ""
+    #: the named features the pair score was computed from (``qacheck.pairmodel.FEATURES``)
+    evidence: dict[str, float] = field(default_factory=dict)
 
     def to_dict(self, include_texts: bool = False) -> dict[str, Any]:
         d = asdict(self)
@@ -62,7 +68,7 @@ class PairResult:
         sents = [SentenceResult(**{**s, "questions": [QuestionResult(**q) for q in s["questions"]]})
                  for s in d["sentences"]]
         return cls(d["score"], d["label"], sents, d["signature"], d.get("counts", {}),
-                   d.get("source", ""), d.get("output", ""))
+                   d.get("source", ""), d.get("output", ""), d.get("evidence", {}))
 
     def source_excerpt(self, q: QuestionResult, width: int = 90) -> str:
         """The stretch of source around the source answer, for evidence views."""

@@ -9,7 +9,9 @@ from collections import Counter
 
 from qacheck.compare import Agreement
 from qacheck.config import Thresholds
-from qacheck.results import SentenceResult
+from qacheck.pairmodel import PairModel, evidence
+from qacheck.words import novel_words
+from qacheck.results import PairResult, QuestionResult, SentenceResult
 
 
 def question_outcome(agreement: Agreement, no_answer_prob: float, thr: Thresholds) -> tuple[str, float]:
@@ -31,35 +33,81 @@ def question_outcome(agreement: Agreement, no_answer_prob: float, thr: Threshold
     return "contradicted", score
 
 
-def sentence_verdict(sentence: SentenceResult, thr: Thresholds) -> None:
-    """Fill the sentence's score and label from its questions (in place).
+def value_conflict(q: QuestionResult) -> bool:
+    """The source answers with a different number, date or quantity than the output.
+
+    Such a mismatch is compared by value, not by words, so it is the most
+    specific evidence qacheck has: it flags its sentence whatever the rest of
+    the evidence says.
+    """
+    return q.outcome == "contradicted" and q.value_kind != "text" and not q.same_value
+
+
+def sentence_verdict(sentence: SentenceResult, source: str, thr: Thresholds,
+                     model: PairModel) -> None:
+    """Fill the sentence's score, probability and label (in place).
 
     A sentence with no surviving question is ``unchecked``, never counted as
-    faithful.  The score is the mean of its question scores; the label is
-    ``supported`` unless a question failed (contradicted or unverifiable, with
-    a score under ``sentence_flag``).  A flagged sentence takes the label of its most common failing
-    outcome, contradictions winning ties (they are the graver error).
+    faithful.  Its score is the mean of its question scores; its
+    ``probability`` is the pair model applied to this sentence alone (its
+    questions and its own words against the source).  It is flagged when a
+    question found a different value in the source, or when its probability
+    falls under the pair cut.  A flagged sentence takes the label of its most
+    common failing question, contradictions winning ties (they are the graver
+    error); with no failing question the evidence was words the source lacks,
+    so it is ``unverifiable``.
     """
     qs = sentence.questions
     if not qs:
-        sentence.score, sentence.label = None, "unchecked"
+        sentence.score, sentence.probability, sentence.label = None, None, "unchecked"
         return
     sentence.score = sum(q.score for q in qs) / len(qs)
-    # one question the source contradicts or cannot answer flags the sentence: a fact is
-    # wrong or unsupported even when the sentence's other facts check out
-    fails = Counter(q.outcome for q in qs if q.outcome != "supported" and q.score < thr.sentence_flag)
-    if not fails:
+    sentence.probability = model.probability(evidence([sentence], source, sentence.text))
+    sentence.novel_words = novel_words(sentence.text, source)[0]
+    if any(value_conflict(q) for q in qs):
+        sentence.label = "contradicted"
+        return
+    if sentence.probability >= thr.pair_consistent:
         sentence.label = "supported"
-    else:
-        sentence.label = ("contradicted" if fails["contradicted"] >= fails["unverifiable"]
-                          else "unverifiable")
+        return
+    fails = Counter(q.outcome for q in qs if q.outcome != "supported")
+    sentence.label = ("contradicted" if fails["contradicted"] and
+                      fails["contradicted"] >= fails["unverifiable"] else "unverifiable")
 
 
-def pair_verdict(sentences: list[SentenceResult], thr: Thresholds) -> tuple[float | None, str, dict[str, int]]:
-    """Pair score (mean over checked sentences), label and counts of sentence labels."""
+def pair_verdict(sentences: list[SentenceResult], source: str, output: str, thr: Thresholds,
+                 model: PairModel) -> tuple[float | None, str, dict[str, int], dict[str, float]]:
+    """Pair score, label, counts of sentence labels, and the evidence the score came from.
+
+    The score is the pair model's probability that the pair is consistent
+    (``qacheck.pairmodel``).  The pair is ``inconsistent`` when that is under
+    the cut or when any sentence holds a value conflict; a pair where no
+    question survived is ``unscored`` rather than guessed from words alone.
+    """
     counts = Counter(s.label for s in sentences)
-    scored = [s.score for s in sentences if s.score is not None]
-    if not scored:
-        return None, "unscored", dict(counts)
-    score = sum(scored) / len(scored)
-    return score, ("consistent" if score >= thr.pair_consistent else "inconsistent"), dict(counts)
+    feats = evidence(sentences, source, output)
+    if feats is None:
+        return None, "unscored", dict(counts), {}
+    score = model.probability(feats)
+    conflict = any(value_conflict(q) for s in sentences for q in s.questions)
+    label = "consistent" if score >= thr.pair_consistent and not conflict else "inconsistent"
+    return score, label, dict(counts), feats
+
+
+def judge(result: PairResult, thr: Thresholds, model: PairModel) -> PairResult:
+    """Fill every sentence verdict and the pair verdict of a result from its questions.
+
+    Verdicts need no model run, so a result read back from a cache or a
+    results file can be judged again under a refitted pair model or other
+    thresholds (``qacheck agreement --fit`` reports its in-sample figures so).
+    """
+    for s in result.sentences:
+        sentence_verdict(s, result.source, thr, model)
+        if s.score is not None:
+            s.score, s.probability = round(s.score, 4), round(s.probability, 4)
+    score, label, counts, feats = pair_verdict(result.sentences, result.source, result.output,
+                                               thr, model)
+    result.score = None if score is None else round(score, 4)
+    result.label, result.counts = label, counts
+    result.evidence = {k: round(v, 4) for k, v in feats.items()}
+    return result

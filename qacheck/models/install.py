@@ -40,6 +40,10 @@ def install_model(name: str, src: Path, evaluation: Path | None = None,
                              "files": lock_model_folder(dest)}
     if training_file.exists():
         entry["training"] = json.loads(training_file.read_text())
+        previous = lock["models"].get(name, {}).get("training")
+        if entry["training"].get("init") and previous:
+            # a continued run: keep the record of the run it started from
+            entry["training"]["continued_from"] = previous
     if evaluation is not None:
         entry["evaluation"] = json.loads(evaluation.read_text())
     elif name in lock["models"] and "evaluation" in lock["models"][name]:

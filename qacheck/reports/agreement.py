@@ -11,24 +11,34 @@ def _f(v) -> str:
     return "-" if v is None else f"{v:.3f}"
 
 
-def render_agreement(res: dict[str, Any], console: Console) -> None:
-    table = Table(title="agreement with human judgements")
+def _table(title: str, files: dict[str, Any]) -> Table:
+    table = Table(title=title)
     for col in ("file", "n", "ROC AUC", "bal. acc.", "ROUGE-L P AUC", "MiniLM cos AUC",
                 "sent. P", "sent. R", "type match"):
         table.add_column(col)
-    for name, f in res["files"].items():
+    for name, f in files.items():
         b = f["baselines"]
         table.add_row(name, str(f["n"]), _f(f["roc_auc"]), _f(f["balanced_accuracy"]),
                       _f(b["rougeL_precision"]["roc_auc"]),
                       _f(b.get("minilm_cosine", {}).get("roc_auc")),
                       _f(f.get("sentence_precision")), _f(f.get("sentence_recall")),
                       _f(f.get("type_match")))
-    console.print(table)
+    return table
+
+
+def render_agreement(res: dict[str, Any], console: Console) -> None:
+    console.print(_table("agreement with human judgements", res["files"]))
     console.print(f"overall ROC AUC {_f(res['overall']['roc_auc'])} on {res['overall']['n']} records")
     if "fit" in res:
-        console.print(f"fitted pair threshold {res['fit']['pair_consistent']:.4f} "
-                      f"(balanced accuracy {res['fit']['balanced_accuracy_fitted']:.3f} on the fitting data)")
-        for name, h in res["fit"]["leave_one_file_out"].items():
-            console.print(f"  {name}: balanced accuracy {h['balanced_accuracy']:.3f} with the cut "
-                          f"fitted on the other files ({h['cut_from_other_files']:.3f})")
+        fit = res["fit"]
+        console.print(f"fitted the pair model on {fit['n_fitted']} pairs; pair threshold "
+                      f"{fit['pair_consistent']:.4f} (balanced accuracy "
+                      f"{fit['balanced_accuracy_fitted']:.3f} on the fitting data). The figures above "
+                      "used the model shipped before this fit.")
+        console.print(_table("in sample: judged again with the model just fitted on them",
+                             fit["in_sample"]))
+        console.print("held out (model and cut fitted on the other files only):")
+        for name, h in fit["leave_one_file_out"].items():
+            console.print(f"  {name}: ROC AUC {_f(h['roc_auc'])}, balanced accuracy "
+                          f"{h['balanced_accuracy']:.3f} (cut {h['cut_from_other_files']:.3f})")
     console.print(f"[dim]signature: {res['signature']['text']}[/]")

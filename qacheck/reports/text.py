@@ -33,6 +33,9 @@ def render_pair(result: PairResult, console: Console) -> None:
                               f"{q.no_answer_prob:.2f}", f"{q.f1:.2f}",
                               f"[{STYLE[q.outcome]}]{q.outcome}[/]")
             console.print(table)
+            if s.novel_words:
+                console.print(f"    [dim]words the source never uses:[/] "
+                              f"{escape(', '.join(s.novel_words))}")
             for q in s.questions:
                 if q.outcome == "contradicted" and q.source_start is not None:
                     console.print(f"    [dim]source:[/] {escape(result.source_excerpt(q))}")

@@ -11,6 +11,7 @@ cross-attention early in training.
 """
 from __future__ import annotations
 
+import re
 import time
 from pathlib import Path
 from typing import Any
@@ -26,11 +27,31 @@ MAX_SRC = 96
 MAX_TGT = 40
 
 
-def qg_pairs(path: Path) -> list[tuple[str, str, str]]:
+_STOP = frozenset(
+    "the a an of in on at to for by with from and or is was were are be been what which who "
+    "whom whose when where why how did does do many much that this these those it its as into "
+    "than".split())
+
+
+def novel_share(question: str, sentence: str) -> float:
+    """Share of the question's content words that do not occur in the sentence.
+
+    SQuAD questions were written while reading a whole paragraph, so many bring
+    words from other sentences.  A drafter that learns to do that asks about
+    things the output sentence never said, which the source then "cannot
+    answer": a false unverifiable.  Training pairs above a cut are dropped.
+    """
+    words = set(re.findall(r"[a-z0-9]+", sentence.lower()))
+    content = [w for w in re.findall(r"[a-z0-9]+", question.lower()) if w not in _STOP]
+    return sum(w not in words for w in content) / max(1, len(content))
+
+
+def qg_pairs(path: Path, max_novel: float = 1.0) -> list[tuple[str, str, str]]:
     """(answer, sentence with the answer marked, question) for every answerable record.
 
     The sentence is the one that holds the answer's first occurrence offset;
-    held-out titles (the same split as for QA) are excluded.
+    held-out titles (the same split as for QA) are excluded, and so are pairs
+    whose question goes beyond its sentence by more than ``max_novel``.
     """
     out = []
     for ex in read_qa_file(path):
@@ -39,7 +60,7 @@ def qg_pairs(path: Path) -> list[tuple[str, str, str]]:
         a0 = ex.answer_starts[0]
         a1 = a0 + len(ex.answers[0])
         for s, e in split_sentences(ex.context):
-            if s <= a0 and a1 <= e:
+            if s <= a0 and a1 <= e and novel_share(ex.question, ex.context[s:e]) <= max_novel:
                 out.append((ex.answers[0], qg_input(ex.context[s:e], a0 - s, a1 - s), ex.question))
                 break
     return out
@@ -93,22 +114,35 @@ def _shift(labels: torch.Tensor, config) -> torch.Tensor:
 
 
 def train_qg(data: Path, out: Path, cfg: LoopConfig, limit: int | None = None,
-             smoothing: float = 0.1, base: str | None = None, log=print) -> dict[str, Any]:
-    """Build (input, question) pairs, train, and export ``out/model``."""
-    from transformers import AutoTokenizer
+             smoothing: float = 0.1, base: str | None = None, init: Path | None = None,
+             max_novel: float = 1.0, log=print) -> dict[str, Any]:
+    """Build (input, question) pairs, train, and export ``out/model``.
+
+    ``init`` continues from an earlier drafter (a folder written by this
+    trainer, such as the shipped one) instead of the bare warm start: the
+    cross-attention is then already trained, and a run's budget goes to
+    the questions themselves.
+    """
+    from transformers import AutoTokenizer, EncoderDecoderModel
 
     base = base or base_model_path()
-    tok = AutoTokenizer.from_pretrained(base)
-    tok.add_special_tokens({"additional_special_tokens": [HL_OPEN, HL_CLOSE]})
+    tok = AutoTokenizer.from_pretrained(init or base)
+    if init is None:
+        tok.add_special_tokens({"additional_special_tokens": [HL_OPEN, HL_CLOSE]})
     t0 = time.time()
-    pairs = qg_pairs(data)
+    pairs = qg_pairs(data, max_novel)
     if limit:
         pairs = pairs[:limit]
     src = tok([p[0] for p in pairs], [p[1] for p in pairs], truncation="longest_first",
               max_length=MAX_SRC)
     tgt = tok([p[2] for p in pairs], truncation=True, max_length=MAX_TGT)
     log(f"{len(pairs)} QG pairs tokenised in {time.time() - t0:.0f}s")
-    model = build_model(base, tok)
+    if init is None:
+        model = build_model(base, tok)
+    else:
+        model = EncoderDecoderModel.from_pretrained(init, dtype=torch.float32,
+                                                    attn_implementation="eager")
+        model.encoder.pooler = None  # unused by the decoder; loading adds a fresh one
     wrapped = _LabelSmoothed(model, smoothing)
     pad = tok.pad_token_id
 
@@ -133,4 +167,5 @@ def train_qg(data: Path, out: Path, cfg: LoopConfig, limit: int | None = None,
     summary = train_loop(wrapped, len(pairs), lengths, collate, out, cfg)
     return export_model(model, tok, out, {
         "train_pairs": len(pairs), "label_smoothing": smoothing, "max_src": MAX_SRC,
-        "max_tgt": MAX_TGT, "tied_encoder_decoder": False}, cfg, data, summary)
+        "max_tgt": MAX_TGT, "tied_encoder_decoder": False,
+        "init": str(init) if init else None, "max_novel_share": max_novel}, cfg, data, summary)
