@@ -58,31 +58,11 @@ def keeps_to_sentence(question: str, sentence: str) -> bool:
     return len(novel_words(question, sentence)[0]) <= MAX_NEW_WORDS
 
 
-def rule_drafts(sentence: str, span: Span) -> list[str]:
-    """The rule drafts for a span, best first: the typed question, then a plain "what" one.
-
-    The typed wh-phrase rests on spaCy's entity label, which the small model
-    gets wrong often enough ("who" for a ship named after a person); the
-    plain in-situ "what" question is the fallback the round trip can try.
-    """
-    drafts = [rule_question(sentence, span)]
-    plain = rule_question(sentence, span, wh="what")
-    return drafts if plain in drafts else drafts + [plain]
-
-
-def rule_question(sentence: str, span: Span, wh: str | None = None) -> str:
-    """An in-situ question whose answer is ``span`` (a span of ``sentence``).
-
-    ``wh`` forces the wh-phrase (replacing the span's whole stretch);
-    by default it is chosen from the span's kind and role.
-    """
+def rule_question(sentence: str, span: Span) -> str:
+    """An in-situ question whose answer is ``span`` (a span of ``sentence``)."""
+    wh, eat_prep = wh_phrase(span)
     a, b = (span.ask_start, span.ask_end) if span.ask_start >= 0 else (span.start, span.end)
-    forced = wh is not None
-    if forced:
-        eat_prep = False
-    else:
-        wh, eat_prep = wh_phrase(span)
-    if span.ask_head and not forced:
+    if span.ask_head:
         # the span modifies a noun phrase: ask which one ("whose" for a possessor person)
         owner = span.kind == "PERSON" and span.dep == "poss"
         wh, eat_prep = f"{'whose' if owner else 'which'} {span.ask_head}", False

@@ -14,7 +14,7 @@ from pathlib import Path
 
 from qacheck.compare import compare_answers, token_f1
 from qacheck.config import Thresholds, signature
-from qacheck.drafting import keeps_to_sentence, rule_drafts
+from qacheck.drafting import keeps_to_sentence, rule_question
 from qacheck.errors import InputError
 from qacheck.models.qa import QAModel
 from qacheck.models.qg import QGModel
@@ -31,7 +31,7 @@ class _Candidate:
     span: Span
     sentence_text: str
     offset: int  # sentence start in the output
-    drafts: list[tuple[str, str]]  # (drafter, question), preferred first
+    drafts: list[tuple[str, str]]  # (drafter, question), in the order tried
 
 
 class Checker:
@@ -81,9 +81,7 @@ class Checker:
         thr = self.thresholds
         with self._stage("segment"):
             segmented = segment_many([out for _, out in pairs], thr.max_spans_per_sentence)
-        cands = self._draft(segmented)
-        with self._stage("qa_output"):
-            kept = self._round_trip(cands, pairs)
+        kept = self._questions(segmented, pairs)
         with self._stage("qa_source"):
             src_answers = self.qa.answer([(q, pairs[c.pair][0]) for c, _, q, _ in kept])
         sig = self.signature
@@ -110,54 +108,54 @@ class Checker:
                                  thr, self.pair_model))
         return results
 
-    def _draft(self, segmented: list[list[Sentence]]) -> list[_Candidate]:
-        """Every span's drafts, preferred first: the rule drafts, then seq2seq (when shipped).
+    def _questions(self, segmented: list[list[Sentence]], pairs: list[tuple[str, str]]):
+        """Per span, the first draft that survives the round trip, with its answer on the output.
 
-        The in-situ rule draft keeps every other word of the sentence, which is
-        what lets the QA model find the same fact in the source; a seq2seq
-        question is a paraphrase and may bring words the sentence never had,
-        which the source then "cannot answer".  So the seq2seq question is the
-        fallback for spans whose rule drafts do not round-trip, and only when
-        it stays within its sentence (``keeps_to_sentence``).
+        The rule draft goes first: kept in situ, it holds every other word of
+        the sentence, which is what lets the QA model find the same fact in the
+        source.  A seq2seq question is a paraphrase and may bring words the
+        sentence never had, which the source then "cannot answer"; so it is
+        drafted only for spans whose rule draft failed (which also spares most
+        of the beam search), and used only when it keeps to its sentence.
         """
         with self._stage("draft_rules"):
-            cands = [_Candidate(p, si, span, s.text, s.start,
-                                [("rules", q) for q in rule_drafts(s.text, span)])
+            cands = [_Candidate(p, si, span, s.text, s.start, [("rules", rule_question(s.text, span))])
                      for p, sents in enumerate(segmented) for si, s in enumerate(sents)
                      for span in s.spans]
-        if self.qg is not None and cands:
+        with self._stage("qa_output"):
+            kept, failed = self._round_trip(cands, pairs)
+        if self.qg is not None and failed:
             with self._stage("draft_seq2seq"):
                 generated = self.qg.generate([(c.sentence_text, c.span.start, c.span.end)
-                                              for c in cands])
-            for c, q in zip(cands, generated):
+                                              for c in failed])
+            retry = []
+            for c, q in zip(failed, generated):
                 if q and c.span.text.lower() not in q.lower() and keeps_to_sentence(q, c.sentence_text):
                     c.drafts.append(("seq2seq", q))
-        return cands
-
-    def _round_trip(self, cands: list[_Candidate], pairs: list[tuple[str, str]]):
-        """Keep, per span, the first draft whose answer on the output gives back the span.
-
-        Drafts are tried in rounds (every span's first draft in one QA batch,
-        then the next draft of the spans still open), so a fallback costs a
-        QA call only where the preferred draft failed.
-        """
-        kept, open_cands = [], list(cands)
-        for rank in range(max((len(c.drafts) for c in cands), default=0)):
-            asks = [c for c in open_cands if rank < len(c.drafts)]
-            answers = self.qa.answer([(c.drafts[rank][1], pairs[c.pair][1]) for c in asks])
-            failed = []
-            for c, a in zip(asks, answers):
-                span_abs = (c.offset + c.span.start, c.offset + c.span.end)
-                overlaps = a.start < span_abs[1] and span_abs[0] < a.end
-                if (a.has_answer and a.no_answer_prob <= self.thresholds.no_answer and overlaps
-                        and token_f1(a.text, c.span.text) >= self.thresholds.round_trip_f1):
-                    kept.append((c, *c.drafts[rank], a))
-                else:
-                    failed.append(c)
-            open_cands = failed
-        # candidates in their original order, so results do not depend on which round kept them
+                    retry.append(c)
+            with self._stage("qa_output"):
+                kept += self._round_trip(retry, pairs)[0]
+        # in span order, so results do not depend on which round kept a question
         order = {id(c): i for i, c in enumerate(cands)}
         return sorted(kept, key=lambda k: order[id(k[0])])
+
+    def _round_trip(self, cands: list[_Candidate], pairs: list[tuple[str, str]]):
+        """Ask each candidate's latest draft of its output: (kept, failed).
+
+        A draft is kept when the QA model, reading the output, answers it with
+        the span itself (overlapping it, token F1 at least ``round_trip_f1``).
+        """
+        answers = self.qa.answer([(c.drafts[-1][1], pairs[c.pair][1]) for c in cands])
+        kept, failed = [], []
+        for c, a in zip(cands, answers):
+            span_abs = (c.offset + c.span.start, c.offset + c.span.end)
+            overlaps = a.start < span_abs[1] and span_abs[0] < a.end
+            if (a.has_answer and a.no_answer_prob <= self.thresholds.no_answer and overlaps
+                    and token_f1(a.text, c.span.text) >= self.thresholds.round_trip_f1):
+                kept.append((c, *c.drafts[-1], a))
+            else:
+                failed.append(c)
+        return kept, failed
 
 
 def read_text(path: str | Path, field: str) -> str:
