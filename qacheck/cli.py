@@ -5,6 +5,7 @@ Exit status: 0 success, 1 a gate failed (regression, integrity), 2 bad input.
 from __future__ import annotations
 
 import json
+import time
 import sys
 from pathlib import Path
 

@@ -38,10 +38,10 @@ def test_harness_on_fixed_sample_beats_floor(fixed_sample):
 
 
 @pytest.mark.slow
-@pytest.mark.xfail(reason="known shortfall, tracked in the open agreement issue: on this 60-record "
-                          "sample the ROUGE-L precision baseline is level with or ahead of qacheck "
-                          "(README, 'Measured on this machine')", strict=False)
 def test_harness_beats_rouge_baseline(fixed_sample):
+    """The issue's bar: a figure that does not beat the ROUGE-L precision baseline is a failure.
+    (The pair model was fitted on 100-record samples of these files, so this sample overlaps
+    its fitting data; the held-out-file figures are in README.)"""
     files = fixed_sample["files"].values()
     ours = sum(f["roc_auc"] for f in files) / 3
     rouge = sum(f["baselines"]["rougeL_precision"]["roc_auc"] for f in files) / 3
