@@ -10,8 +10,8 @@ from collections import Counter
 from qacheck.compare import Agreement
 from qacheck.config import Thresholds
 from qacheck.pairmodel import PairModel, evidence
-from qacheck.words import novel_words
 from qacheck.results import PairResult, QuestionResult, SentenceResult
+from qacheck.words import novel_words
 
 
 def question_outcome(agreement: Agreement, no_answer_prob: float, thr: Thresholds) -> tuple[str, float]:

@@ -40,6 +40,8 @@ def novel_share(question: str, sentence: str) -> float:
     words from other sentences.  A drafter that learns to do that asks about
     things the output sentence never said, which the source then "cannot
     answer": a false unverifiable.  Training pairs above a cut are dropped.
+    A plain lower-cased word match, as the shipped drafter was trained with
+    (``qacheck.words`` is the stemmed notion used at scoring time).
     """
     words = set(re.findall(r"[a-z0-9]+", sentence.lower()))
     content = [w for w in re.findall(r"[a-z0-9]+", question.lower()) if w not in _STOP]
