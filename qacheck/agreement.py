@@ -216,7 +216,7 @@ def run_agreement(files: list[Path], scorer, limit: int | None = None, seed: int
         fig = evaluate_file(records, results, baselines, scorer.thresholds.pair_consistent)
         per_file[path.stem] = fig
         scores = [res["score"] if res["score"] is not None else UNSCORED_FALLBACK for res in results]
-        raw[path.stem] = {"y": [r.consistent for r in records], "scores": scores,
+        raw[path.stem] = {"y": [r.consistent for r in records],
                           "features": [_evidence_of(r, res) for r, res in zip(records, results)],
                           "records": records, "results": results, "baselines": baselines}
         pooled_y += raw[path.stem]["y"]

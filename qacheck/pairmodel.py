@@ -34,14 +34,18 @@ FEATURES: tuple[str, ...] = (
     "novel_word_share",  # output content words (stemmed) that the source never uses
 )
 
+def features(qa_mean: float, n_novel: int, n_content: int) -> dict[str, float]:
+    """The feature values from the question mean and the counts of ``novel_words``."""
+    return {"qa_mean": qa_mean, "novel_word_share": n_novel / n_content if n_content else 0.0}
+
+
 def evidence(sentences: list[SentenceResult], source: str, output: str) -> dict[str, float] | None:
     """The feature values of one pair, or None when no question survived (nothing was checked)."""
     scored = [s.score for s in sentences if s.score is not None]
     if not scored:
         return None
     novel, n_content = novel_words(output, source)
-    return {"qa_mean": sum(scored) / len(scored),
-            "novel_word_share": len(novel) / n_content if n_content else 0.0}
+    return features(sum(scored) / len(scored), len(novel), n_content)
 
 
 @dataclass(frozen=True)

@@ -9,7 +9,7 @@ from collections import Counter
 
 from qacheck.compare import Agreement
 from qacheck.config import Thresholds
-from qacheck.pairmodel import PairModel, evidence
+from qacheck.pairmodel import PairModel, evidence, features
 from qacheck.results import PairResult, QuestionResult, SentenceResult
 from qacheck.words import novel_words
 
@@ -62,8 +62,9 @@ def sentence_verdict(sentence: SentenceResult, source: str, thr: Thresholds,
         sentence.score, sentence.probability, sentence.label = None, None, "unchecked"
         return
     sentence.score = sum(q.score for q in qs) / len(qs)
-    sentence.probability = model.probability(evidence([sentence], source, sentence.text))
-    sentence.novel_words = novel_words(sentence.text, source)[0]
+    sentence.novel_words, n_content = novel_words(sentence.text, source)
+    sentence.probability = model.probability(
+        features(sentence.score, len(sentence.novel_words), n_content))
     if any(value_conflict(q) for q in qs):
         sentence.label = "contradicted"
         return

@@ -83,7 +83,7 @@ def test_leave_one_file_out_generalises_on_separable_files():
             feats.append(row)
             ys.append(good)
         feats[0] = None  # an unscored pair: neutral score, left out of fitting
-        return {"y": ys, "scores": [0.5] * n, "features": feats}
+        return {"y": ys, "features": feats}
 
     raw = {name: make(40) for name in ("a", "b", "c")}
     out = fit_pair_model(raw)
