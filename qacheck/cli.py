@@ -429,11 +429,16 @@ def _train_options(f):
 
 @train.command("qa")
 @_train_options
-def train_qa_cmd(**opts) -> None:
+@click.option("--init", type=click.Path(exists=True, file_okay=False),
+              help="Continue from this QA model folder (e.g. qacheck/weights/qa) instead of the base.")
+@click.option("--in-situ", default=0.0, show_default=True,
+              help="Share of answerable examples that also get an in-situ question "
+                   "(the answer sentence with the answer replaced by a wh-phrase).")
+def train_qa_cmd(init, in_situ, **opts) -> None:
     """Fine-tune the QA model (with constructed unanswerables); resumes from OUT."""
     from qacheck.train.qa import train_qa
 
-    _train(train_qa, **opts)
+    _train(train_qa, **opts, init=Path(init) if init else None, in_situ=in_situ)
 
 
 @train.command("qg")

@@ -79,3 +79,22 @@ def rule_question(sentence: str, span: Span) -> str:
     if text.startswith(wh):
         text = wh[0].upper() + text[1:]
     return text + "?"
+
+
+def span_at(doc, a: int, b: int) -> Span:
+    """A drafter Span for characters [a, b) of a parsed sentence (entity label when it is one).
+
+    Used where the answer is given rather than found by ``segment``: SQuAD
+    answers in the QG evaluation and in the QA model's in-situ training data.
+    """
+    sp = doc.char_span(a, b, alignment_mode="expand")
+    kind = "CHUNK"
+    for ent in doc.ents:
+        if ent.start_char <= a and b <= ent.end_char:
+            kind = ent.label_
+            break
+    if sp is None:
+        return Span(doc.text[a:b], a, b, kind)
+    root = sp.root
+    prep = root.head.text.lower() if root.dep_ == "pobj" and root.head.dep_ == "prep" else ""
+    return Span(doc.text[a:b], a, b, kind, root.dep_, prep)

@@ -104,8 +104,7 @@ def eval_qg(data: Path, limit: int | None = None, qa: QAModel | None = None,
     import sacrebleu
     from rouge_score import rouge_scorer
 
-    from qacheck.drafting import keeps_to_sentence, rule_question
-    from qacheck.segment import Span
+    from qacheck.drafting import keeps_to_sentence, rule_question, span_at
 
     qa = qa or QAModel()
     qg = qg if qg is not None else (QGModel() if QGModel.available() else None)
@@ -117,7 +116,7 @@ def eval_qg(data: Path, limit: int | None = None, qa: QAModel | None = None,
     from qacheck.segment import nlp
 
     docs = nlp().pipe([s for s, *_ in items], batch_size=64)
-    rule_qs = [rule_question(s, _span_from_doc(doc, a, b, Span))
+    rule_qs = [rule_question(s, span_at(doc, a, b))
                for doc, (s, a, b, _) in zip(docs, items)]
 
     def round_trip(questions: list[str]) -> list[bool]:
@@ -160,17 +159,3 @@ def eval_qg(data: Path, limit: int | None = None, qa: QAModel | None = None,
         out["rougeL"] = None
     return out
 
-
-def _span_from_doc(doc, a: int, b: int, span_cls):
-    """A drafter Span for characters [a, b) of a parsed sentence (entity label when it is one)."""
-    sp = doc.char_span(a, b, alignment_mode="expand")
-    kind = "CHUNK"
-    for ent in doc.ents:
-        if ent.start_char <= a and b <= ent.end_char:
-            kind = ent.label_
-            break
-    if sp is None:
-        return span_cls(doc.text[a:b], a, b, kind)
-    root = sp.root
-    prep = root.head.text.lower() if root.dep_ == "pobj" and root.head.dep_ == "prep" else ""
-    return span_cls(doc.text[a:b], a, b, kind, root.dep_, prep)

@@ -63,6 +63,19 @@ def test_answer_beyond_the_first_window_is_found(qa_model):
     assert ctx[a.start:a.end] == a.text
 
 
+def test_a_question_longer_than_a_window_is_clipped_not_fatal(qa_model):
+    """An in-situ question from a run-on sentence can outgrow the window; the tokenizer would
+    abort (stride >= room left for the context), so questions are cut to QUESTION_TOKENS."""
+    from qacheck.models.qa import QUESTION_TOKENS, clip_questions
+
+    long_q = "Who " + "checked the ropes and the berths and the cranes " * 40 + "at Caldreth?"
+    [a] = qa_model.answer([(long_q, "Ilse Marrow checked the ropes at Caldreth.")])
+    assert 0.0 <= a.no_answer_prob <= 1.0
+    [clipped] = clip_questions(qa_model._tok, [long_q])
+    assert long_q.startswith(clipped) and len(clipped) < len(long_q)
+    assert len(qa_model._tok(clipped, add_special_tokens=False)["input_ids"]) == QUESTION_TOKENS
+
+
 def test_f1_floor_on_squad_dev_sample(qa_model):
     """Official-rule F1 on a fixed random sample of SQuAD v1.1 dev (Rajpurkar et al. 2016)."""
     from qacheck.evaluate import eval_qa
@@ -104,6 +117,29 @@ def test_tiny_qa_training_run_writes_a_loadable_model(tmp_path):
     assert 0.0 <= a.no_answer_prob <= 1.0
     log = (tmp_path / "run" / "train.log").read_text()
     assert '"event": "end"' in log
+    # continuing from that model with in-situ questions added
+    more = train_qa(data, tmp_path / "more", LoopConfig(batch_size=8, lr=1e-5, max_steps=2),
+                    init=tmp_path / "run" / "model", in_situ=1.0, log=lambda *_: None)
+    assert more["init"].endswith("model") and more["train_in_situ"] > 0
+    assert QAModel(tmp_path / "more" / "model").answer([("Who opened?", "Ada opened.")])
+
+
+def test_in_situ_training_questions_point_at_their_answer(tmp_path):
+    """In-situ questions keep the sentence, hide the answer, and keep the answer's offsets."""
+    from qacheck.train.data import read_qa_file, in_situ_variants
+
+    examples = read_qa_file(_tiny_qa_file(tmp_path))
+    made = in_situ_variants(examples, 1.0, seed=0)
+    assert {e.kind for e in made} == {"in_situ", "in_situ_sentence"}
+    assert len(made) == len(examples)
+    for e in made:
+        start = e.answer_starts[0]
+        assert e.context[start:start + len(e.answers[0])] == e.answers[0]
+        assert e.question.endswith("?") and e.answers[0] not in e.question
+        if e.kind == "in_situ_sentence":
+            assert e.context.count(".") == 1  # one sentence of the paragraph
+    asked = {e.question for e in made}
+    assert "Its first manager was who?" in asked
 
 
 def test_interrupted_training_resumes_to_the_same_weights(tmp_path):

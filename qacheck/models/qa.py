@@ -38,6 +38,18 @@ class Answer:
         return bool(self.text)
 
 
+#: questions are cut to this many word pieces; a window must hold the question and more than
+#: its stride of context (an in-situ question from a run-on sentence can be very long)
+QUESTION_TOKENS = 96
+
+
+def clip_questions(tok, questions: list[str], max_tokens: int = QUESTION_TOKENS) -> list[str]:
+    """Each question cut after its first ``max_tokens`` word pieces (most are far shorter)."""
+    enc = tok(questions, add_special_tokens=False, return_offsets_mapping=True)
+    return [q if len(offs) <= max_tokens else q[:offs[max_tokens - 1][1]]
+            for q, offs in zip(questions, enc["offset_mapping"])]
+
+
 class QAModel(LockedModel):
     """The shipped QA model (or any folder written by ``qacheck train qa``)."""
 
@@ -67,7 +79,8 @@ class QAModel(LockedModel):
             return []
         self._load()
         tok = self._tok
-        enc = tok([q for q, _ in pairs], [c for _, c in pairs], truncation="only_second",
+        enc = tok(clip_questions(tok, [q for q, _ in pairs]), [c for _, c in pairs],
+                  truncation="only_second",
                   max_length=self.max_len, stride=self.stride, return_overflowing_tokens=True,
                   return_offsets_mapping=True)
         n_win = len(enc["input_ids"])

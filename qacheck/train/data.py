@@ -9,6 +9,15 @@ told apart from contradictions.  We construct negatives from the data itself:
 * ``other_paragraph``: the question is paired with another paragraph of the
   same article, which is topical but (checked) does not contain the answer.
 
+It also adds questions in the form qacheck itself asks (``in_situ``): the
+answer sentence with its answer replaced by a wh-phrase, as the rule-based
+drafter writes it.  SQuAD's crowd questions rarely look like that, and a model
+that never saw one answers them less well and returns longer spans than asked.
+Half of them are asked against the answer sentence alone (``in_situ_sentence``),
+the context of the round trip on an output sentence.  They pass through the
+negative construction like any other question, so an in-situ question also
+learns to get no answer when its fact is missing.
+
 Titles are split deterministically into train and held-out groups so that the
 held-out negatives used for the no-answer ROC AUC share no article with
 training data.
@@ -41,7 +50,8 @@ class QAExample:
     context: str
     answers: tuple[str, ...]
     answer_starts: tuple[int, ...]
-    kind: str = "original"  # original | drop_sentence | other_paragraph | squad2_impossible
+    #: original | drop_sentence | other_paragraph | squad2_impossible | in_situ | in_situ_sentence
+    kind: str = "original"
 
     @property
     def is_impossible(self) -> bool:
@@ -188,6 +198,41 @@ def with_negatives(
     return out
 
 
+def in_situ_variants(examples: list[QAExample], share: float, seed: int) -> list[QAExample]:
+    """In-situ questions for ``share`` of the answerable examples (see the module docstring).
+
+    The answer must lie inside one sentence (regex split); the draft must not
+    contain the answer verbatim.  spaCy parses only the answer sentences.
+    """
+    from qacheck.drafting import rule_question, span_at
+    from qacheck.segment import nlp
+
+    rng = random.Random(seed)
+    picked = [e for e in examples if not e.is_impossible and e.answer_starts[0] >= 0]
+    picked = rng.sample(picked, int(len(picked) * share)) if share < 1 else picked
+    located = []
+    for ex in picked:
+        a0 = ex.answer_starts[0]
+        a1 = a0 + len(ex.answers[0])
+        for s, t in split_sentences(ex.context):
+            if s <= a0 and a1 <= t:
+                located.append((ex, s, t, a0 - s, a1 - s))
+                break
+    out: list[QAExample] = []
+    docs = nlp().pipe([ex.context[s:t] for ex, s, t, _, _ in located], batch_size=256)
+    for i, (doc, (ex, s, t, a, b)) in enumerate(zip(docs, located)):
+        question = rule_question(doc.text, span_at(doc, a, b))
+        if ex.answers[0].lower() in question.lower():
+            continue
+        if i % 2:
+            out.append(QAExample(ex.qid + "-insitu-sent", ex.title, question, ex.context[s:t],
+                                 ex.answers[:1], (a,), "in_situ_sentence"))
+        else:
+            out.append(QAExample(ex.qid + "-insitu", ex.title, question, ex.context,
+                                 ex.answers[:1], ex.answer_starts[:1], "in_situ"))
+    return out
+
+
 def heldout(path: str | Path, seed: int, negative_share: float = 1 / 3,
             heldout_share: float = 0.02) -> list[QAExample]:
     """Only the held-out examples of ``train_and_heldout`` (for evaluation)."""
@@ -196,10 +241,17 @@ def heldout(path: str | Path, seed: int, negative_share: float = 1 / 3,
 
 
 def train_and_heldout(
-    path: str | Path, seed: int, negative_share: float = 1 / 3, heldout_share: float = 0.02
+    path: str | Path, seed: int, negative_share: float = 1 / 3, heldout_share: float = 0.02,
+    in_situ_share: float = 0.0,
 ) -> tuple[list[QAExample], list[QAExample]]:
-    """The training examples and the held-out examples (both with constructed negatives)."""
+    """The training examples and the held-out examples (both with constructed negatives).
+
+    ``in_situ_share`` adds in-situ questions to the training side only, so the
+    held-out figures stay comparable across runs.
+    """
     records = read_qa_file(path)
     train = [r for r in records if not is_heldout_title(r.title, heldout_share)]
     held = [r for r in records if is_heldout_title(r.title, heldout_share)]
+    if in_situ_share > 0:
+        train = train + in_situ_variants(train, in_situ_share, seed)
     return with_negatives(train, negative_share, seed), with_negatives(held, negative_share, seed + 1)

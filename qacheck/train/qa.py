@@ -12,6 +12,7 @@ from typing import Any
 
 import torch
 
+from qacheck.models.qa import clip_questions
 from qacheck.train.data import QAExample, train_and_heldout
 from qacheck.train.loop import LoopConfig, export_model, train_loop
 
@@ -34,7 +35,8 @@ def featurize(examples: list[QAExample], tokenizer, max_len: int = MAX_LEN,
     step = 2000
     for c in range(0, len(examples), step):
         chunk = examples[c:c + step]
-        enc = tokenizer([e.question for e in chunk], [e.context for e in chunk],
+        enc = tokenizer(clip_questions(tokenizer, [e.question for e in chunk]),
+                        [e.context for e in chunk],
                         truncation="only_second", max_length=max_len, stride=stride,
                         return_overflowing_tokens=True, return_offsets_mapping=True)
         per_example: dict[int, int] = {}
@@ -80,25 +82,34 @@ def make_collate(feats: list[dict[str, Any]], pad_id: int):
 
 
 def train_qa(data: Path, out: Path, cfg: LoopConfig, limit: int | None = None,
-             negative_share: float = 1 / 3, base: str | None = None,
-             log=print) -> dict[str, Any]:
-    """Build the data, train, and export a loadable model folder into ``out/model``."""
+             negative_share: float = 1 / 3, base: str | None = None, init: Path | None = None,
+             in_situ: float = 0.0, log=print) -> dict[str, Any]:
+    """Build the data, train, and export a loadable model folder into ``out/model``.
+
+    ``init`` continues from an earlier QA model folder (e.g. the shipped one)
+    instead of the base encoder; ``in_situ`` is the share of answerable
+    training examples that also get an in-situ question (``train.data``).
+    """
     from transformers import AutoModelForQuestionAnswering, AutoTokenizer
 
-    base = base or base_model_path()
-    tok = AutoTokenizer.from_pretrained(base)
-    train, held = train_and_heldout(data, seed=cfg.seed, negative_share=negative_share)
+    start = str(init) if init else (base or base_model_path())
+    tok = AutoTokenizer.from_pretrained(start)
+    t0 = time.time()
+    train, held = train_and_heldout(data, seed=cfg.seed, negative_share=negative_share,
+                                    in_situ_share=in_situ)
     if limit:
         train = train[:limit]
-    t0 = time.time()
     feats = featurize(train, tok)
-    log(f"{len(train)} examples ({sum(e.is_impossible for e in train)} unanswerable) -> "
-        f"{len(feats)} windows in {time.time() - t0:.0f}s; {len(held)} held out")
+    n_in_situ = sum(e.kind.startswith("in_situ") for e in train)
+    log(f"{len(train)} examples ({sum(e.is_impossible for e in train)} unanswerable, "
+        f"{n_in_situ} in-situ questions) -> {len(feats)} windows in {time.time() - t0:.0f}s; "
+        f"{len(held)} held out")
     model = AutoModelForQuestionAnswering.from_pretrained(
-        base, attention_probs_dropout_prob=0.0)
+        start, dtype=torch.float32, attention_probs_dropout_prob=0.0)
     summary = train_loop(model, len(feats), [len(f["input_ids"]) for f in feats],
                          make_collate(feats, tok.pad_token_id), out, cfg)
     return export_model(model, tok, out, {
         "train_examples": len(train), "train_unanswerable": sum(e.is_impossible for e in train),
         "heldout_examples": len(held), "negative_share": negative_share, "max_len": MAX_LEN,
-        "stride": STRIDE}, cfg, data, summary)
+        "stride": STRIDE, "init": str(init) if init else None, "in_situ_share": in_situ,
+        "train_in_situ": n_in_situ}, cfg, data, summary)
