@@ -4,8 +4,8 @@ The mean of question scores sees only what its questions asked about: a
 sentence where no question survived the round trip, or a clause between the
 answer spans, adds nothing to it, yet that is where unsupported content
 often sits.  The share of the output's content words that the source never
-uses covers exactly that, and on the development judgements it carried as
-much signal as the questions.  qacheck combines the two with a standardised
+uses covers exactly that, and on the development judgements it adds to
+the questions on most files.  qacheck combines the two with a standardised
 logistic regression (scikit-learn), fitted on the development judgements and
 reported with leave-one-file-out figures (``qacheck agreement --fit``), in
 the spirit of the published learned answer-overlap scorers.

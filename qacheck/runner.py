@@ -41,7 +41,10 @@ def case_status(case: Case, result: dict[str, Any] | None) -> tuple[str, list[st
     if "label" in exp and label != exp["label"]:
         reasons.append(f"label {label}, expected {exp['label']}")
     if "label" not in exp and label != "consistent":
-        reasons.append(f"label {label} (score {score:.2f} below the pair threshold)")
+        cut = result["signature"]["thresholds"]["pair_consistent"]
+        why = (f"score {score:.2f} below the pair threshold {cut}" if score < cut else
+               "a question found a different number, date or quantity in the source")
+        reasons.append(f"label {label} ({why})")
     if "min_score" in exp and (score is None or score < exp["min_score"]):
         reasons.append(f"score {score} below min_score {exp['min_score']}")
     if "max_score" in exp and (score is None or score > exp["max_score"]):

@@ -199,3 +199,19 @@ def test_workers_give_the_same_results_as_one_process(tmp_path):
     assert [(i, st) for i, _, st in one] == [(i, st) for i, _, st in two]
     # bf16 sums differ in the last bits between 1 and 2 threads per process
     assert all(abs(a[1] - b[1]) < 0.02 for a, b in zip(one, two))
+
+
+def test_failure_reason_says_whether_the_score_or_a_value_conflict_failed_the_case():
+    """A pair is inconsistent when its score is under the cut *or* a question found another
+    value; the reason given must be the true one, not "below the threshold" for a 0.81."""
+    from qacheck.runner import case_status
+    from qacheck.scenarios import Case
+
+    sig = {"thresholds": {"pair_consistent": 0.7}}
+    case = Case("c1", "source text", "output text")
+    low = case_status(case, {"label": "inconsistent", "score": 0.42, "signature": sig})
+    conflict = case_status(case, {"label": "inconsistent", "score": 0.81, "signature": sig})
+    ok = case_status(case, {"label": "consistent", "score": 0.81, "signature": sig})
+    assert low == ("fail", ["label inconsistent (score 0.42 below the pair threshold 0.7)"])
+    assert conflict[0] == "fail" and "different number, date or quantity" in conflict[1][0]
+    assert ok == ("pass", [])
