@@ -422,6 +422,9 @@ def _train_options(f):
         click.option("--limit", type=int, help="Use only the first N examples (smoke runs)."),
         click.option("--checkpoint-every", default=100, show_default=True),
         click.option("--no-bf16", is_flag=True, help="Train in fp32."),
+        click.option("--init", type=click.Path(exists=True, file_okay=False, path_type=Path),
+                     help="Continue from this model folder (e.g. qacheck/weights/qa or "
+                          "qacheck/weights/qg) instead of the base encoder."),
     ]):
         f = opt(f)
     return f
@@ -429,30 +432,26 @@ def _train_options(f):
 
 @train.command("qa")
 @_train_options
-@click.option("--init", type=click.Path(exists=True, file_okay=False),
-              help="Continue from this QA model folder (e.g. qacheck/weights/qa) instead of the base.")
 @click.option("--in-situ", default=0.0, show_default=True,
               help="Share of answerable examples that also get an in-situ question "
                    "(the answer sentence with the answer replaced by a wh-phrase).")
-def train_qa_cmd(init, in_situ, **opts) -> None:
+def train_qa_cmd(in_situ, **opts) -> None:
     """Fine-tune the QA model (with constructed unanswerables); resumes from OUT."""
     from qacheck.train.qa import train_qa
 
-    _train(train_qa, **opts, init=Path(init) if init else None, in_situ=in_situ)
+    _train(train_qa, **opts, in_situ=in_situ)
 
 
 @train.command("qg")
 @_train_options
-@click.option("--init", type=click.Path(exists=True, file_okay=False),
-              help="Continue from this drafter folder (e.g. qacheck/weights/qg) instead of the base.")
 @click.option("--max-novel", default=1.0, show_default=True,
               help="Drop training pairs whose question has more than this share of content "
                    "words absent from its sentence.")
-def train_qg_cmd(init, max_novel, **opts) -> None:
+def train_qg_cmd(max_novel, **opts) -> None:
     """Train the seq2seq question drafter; resumes from OUT."""
     from qacheck.train.qg import train_qg
 
-    _train(train_qg, **opts, init=Path(init) if init else None, max_novel=max_novel)
+    _train(train_qg, **opts, max_novel=max_novel)
 
 
 def _train(trainer, data, out, seed, batch_size, lr, epochs, max_steps, limit, checkpoint_every,
