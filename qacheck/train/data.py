@@ -128,6 +128,13 @@ def split_sentences(text: str) -> list[tuple[int, int]]:
     return [(s, e) for s, e in spans if text[s:e].strip()]
 
 
+def answer_sentence(ex: QAExample) -> tuple[int, int] | None:
+    """Character span of the sentence (``split_sentences``) holding the first answer, if one does."""
+    a0 = ex.answer_starts[0]
+    a1 = a0 + len(ex.answers[0])
+    return next(((s, e) for s, e in split_sentences(ex.context) if s <= a0 and a1 <= e), None)
+
+
 def _contains_any(text: str, answers: tuple[str, ...]) -> bool:
     low = text.lower()
     return any(a.lower() in low for a in answers)
@@ -212,12 +219,11 @@ def in_situ_variants(examples: list[QAExample], share: float, seed: int) -> list
     picked = rng.sample(picked, int(len(picked) * share)) if share < 1 else picked
     located = []
     for ex in picked:
-        a0 = ex.answer_starts[0]
-        a1 = a0 + len(ex.answers[0])
-        for s, t in split_sentences(ex.context):
-            if s <= a0 and a1 <= t:
-                located.append((ex, s, t, a0 - s, a1 - s))
-                break
+        sentence = answer_sentence(ex)
+        if sentence is not None:
+            s, t = sentence
+            a0 = ex.answer_starts[0]
+            located.append((ex, s, t, a0 - s, a0 + len(ex.answers[0]) - s))
     out: list[QAExample] = []
     docs = nlp().pipe([ex.context[s:t] for ex, s, t, _, _ in located], batch_size=256)
     for i, (doc, (ex, s, t, a, b)) in enumerate(zip(docs, located)):

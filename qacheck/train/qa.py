@@ -101,7 +101,8 @@ def train_qa(data: Path, out: Path, cfg: LoopConfig, limit: int | None = None,
         train = train[:limit]
     feats = featurize(train, tok)
     n_in_situ = sum(e.kind.startswith("in_situ") for e in train)
-    log(f"{len(train)} examples ({sum(e.is_impossible for e in train)} unanswerable, "
+    n_unanswerable = sum(e.is_impossible for e in train)
+    log(f"{len(train)} examples ({n_unanswerable} unanswerable, "
         f"{n_in_situ} in-situ questions) -> {len(feats)} windows in {time.time() - t0:.0f}s; "
         f"{len(held)} held out")
     model = AutoModelForQuestionAnswering.from_pretrained(
@@ -109,7 +110,7 @@ def train_qa(data: Path, out: Path, cfg: LoopConfig, limit: int | None = None,
     summary = train_loop(model, len(feats), [len(f["input_ids"]) for f in feats],
                          make_collate(feats, tok.pad_token_id), out, cfg)
     return export_model(model, tok, out, {
-        "train_examples": len(train), "train_unanswerable": sum(e.is_impossible for e in train),
+        "train_examples": len(train), "train_unanswerable": n_unanswerable,
         "heldout_examples": len(held), "negative_share": negative_share, "max_len": MAX_LEN,
         "stride": STRIDE, "init": str(init) if init else None, "in_situ_share": in_situ,
         "train_in_situ": n_in_situ}, cfg, data, summary)

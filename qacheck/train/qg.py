@@ -19,7 +19,7 @@ from typing import Any
 import torch
 
 from qacheck.qg_format import HL_CLOSE, HL_OPEN, qg_input
-from qacheck.train.data import is_heldout_title, read_qa_file, split_sentences
+from qacheck.train.data import answer_sentence, is_heldout_title, read_qa_file
 from qacheck.train.loop import LoopConfig, export_model, train_loop
 from qacheck.train.qa import base_model_path
 
@@ -59,12 +59,14 @@ def qg_pairs(path: Path, max_novel: float = 1.0) -> list[tuple[str, str, str]]:
     for ex in read_qa_file(path):
         if not ex.answers or ex.answer_starts[0] < 0 or is_heldout_title(ex.title, 0.02):
             continue
-        a0 = ex.answer_starts[0]
-        a1 = a0 + len(ex.answers[0])
-        for s, e in split_sentences(ex.context):
-            if s <= a0 and a1 <= e and novel_share(ex.question, ex.context[s:e]) <= max_novel:
-                out.append((ex.answers[0], qg_input(ex.context[s:e], a0 - s, a1 - s), ex.question))
-                break
+        sentence = answer_sentence(ex)
+        if sentence is None:
+            continue
+        s, e = sentence
+        a0 = ex.answer_starts[0] - s
+        if novel_share(ex.question, ex.context[s:e]) <= max_novel:
+            out.append((ex.answers[0], qg_input(ex.context[s:e], a0, a0 + len(ex.answers[0])),
+                        ex.question))
     return out
 
 
