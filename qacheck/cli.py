@@ -75,7 +75,9 @@ def _write(text: str, out: str | None) -> None:
 @click.option("--out", type=click.Path(dir_okay=False), help="Write the report here.")
 @click.option("--thresholds", "thr_file", type=click.Path(dir_okay=False),
               help="JSON file overriding shipped thresholds.")
-def score(source, output, source_text, output_text, fmt, out, thr_file) -> None:
+@click.option("--verbose", is_flag=True,
+              help="Show the questions and reasons of supported sentences too.")
+def score(source, output, source_text, output_text, fmt, out, thr_file, verbose) -> None:
     """Score one OUTPUT against its SOURCE (paths; '-' reads stdin)."""
     from qacheck.pipeline import Checker, read_text
 
@@ -97,15 +99,15 @@ def score(source, output, source_text, output_text, fmt, out, thr_file) -> None:
     elif fmt == "html":
         from qacheck.reports.html import render
 
-        _write(render("pair.html.j2", title="qacheck report", pair=result), out)
+        _write(render("pair.html.j2", title="qacheck report", pair=result, verbose=verbose), out)
     else:
         from qacheck.reports.text import render_pair
 
         if out:
             with open(out, "w", encoding="utf-8") as fh:
-                render_pair(result, Console(file=fh, width=120, no_color=True))
+                render_pair(result, Console(file=fh, width=120, no_color=True), verbose)
         else:
-            render_pair(result, Console())
+            render_pair(result, Console(), verbose)
 
 
 # --- nightly runs ---------------------------------------------------------------------
@@ -190,8 +192,8 @@ def run(set_dir, outputs, results_dir, baseline, tolerance, allow_signature_mism
 @click.option("--allow-signature-mismatch", is_flag=True)
 def compare(a, b, set_dir, fmt, out, seed, resamples, top, allow_signature_mismatch) -> None:
     """Compare generator versions A and B (results folders of `qacheck run`) with paired statistics."""
-    from qacheck.reports import versions as render_versions
-    from qacheck.versions import compare_runs
+    from qacheck.reports import version_diff as render_versions
+    from qacheck.version_diff import compare_runs
 
     if set_dir:
         a, b = (str(_score_outputs(set_dir, x)) for x in (a, b))
@@ -230,7 +232,7 @@ def _score_outputs(set_dir: str, outputs: str) -> Path:
 @click.option("--seed", default=0, show_default=True, help="Seed of the sample.")
 @click.option("--json", "as_json", is_flag=True)
 @click.option("--fit", is_flag=True,
-              help="Fit the pair model and threshold on these files (leave-one-file-out "
+              help="Fit the sentence model and its cut on these files (leave-one-file-out "
                    "figures reported) and ship them.")
 @click.option("--no-cosine", is_flag=True, help="Skip the MiniLM cosine baseline.")
 @click.option("--cache", "cache_path", type=click.Path(dir_okay=False))
@@ -238,7 +240,7 @@ def agreement(files, limit, seed, as_json, fit, no_cosine, cache_path) -> None:
     """Agreement with human faithfulness judgements (ROC AUC, balanced accuracy, sentences)."""
     from rich.progress import Progress
 
-    from qacheck.agreement import fit_pair_model, rejudged_figures, run_agreement
+    from qacheck.human_agreement import fit_judge_model, rejudged_figures, run_agreement
     from qacheck.cache import ResultCache
     from qacheck.config import Thresholds
     from qacheck.runner import Scorer
@@ -256,41 +258,34 @@ def agreement(files, limit, seed, as_json, fit, no_cosine, cache_path) -> None:
                             with_cosine=not no_cosine)
     raw = res.pop("raw")
     if fit:
-        fitted = fit_pair_model(raw)
-        _ship_pair_model(fitted, files, limit, seed, res["signature"]["id"])
-        thr = scorer.thresholds.merged({"pair_consistent": round(fitted["pair_consistent"], 4)})
-        fitted["in_sample"] = rejudged_figures(raw, thr, fitted["model"])
+        fitted = fit_judge_model(raw)
+        _ship_judge_model(fitted, files, limit, seed, res["signature"]["id"])
+        fitted["in_sample"] = rejudged_figures(raw, fitted["model"])
         fitted["model"] = fitted["model"].as_dict()
         res["fit"] = fitted
     if as_json:
         click.echo(json.dumps(res, indent=2))
         return
-    from qacheck.reports.agreement import render_agreement
+    from qacheck.reports.human_agreement import render_agreement
 
     render_agreement(res, Console())
 
 
-def _ship_pair_model(fitted: dict, files, limit, seed, scored_under: str) -> None:
-    """Write the fitted pair model (pair_model.json) and cut (thresholds.json) into the package,
-    each with the files, sample and held-out figures it came from."""
+def _ship_judge_model(fitted: dict, files, limit, seed, scored_under: str) -> None:
+    """Write the fitted sentence model, its cut and conflict precision into the package
+    (judge_model.json), with the files, sample and held-out figures it came from."""
     from importlib import resources
 
     origin = {"fitted_by": "qacheck agreement --fit", "files": [Path(f).name for f in files],
               "limit": limit, "seed": seed, "scored_under_signature": scored_under,
-              "n_fitted": fitted["n_fitted"],
+              "n_sentences": fitted["n_sentences"], "n_conflict_flags": fitted["n_conflict_flags"],
               "balanced_accuracy_fitted": round(fitted["balanced_accuracy_fitted"], 4),
               "leave_one_file_out": fitted["leave_one_file_out"],
               "date": time.strftime("%Y-%m-%d")}
-    package = Path(str(resources.files("qacheck")))
-    (package / "pair_model.json").write_text(json.dumps(
-        {"origin": origin, "model": fitted["model"].as_dict()}, indent=2) + "\n", encoding="utf-8")
-    path = package / "thresholds.json"
-    data = json.loads(path.read_text(encoding="utf-8"))
-    data["thresholds"]["pair_consistent"] = round(fitted["pair_consistent"], 4)
-    data["origin"] = origin
-    path.write_text(json.dumps(data, indent=2) + "\n", encoding="utf-8")
-    err.print(f"wrote the pair model to {package / 'pair_model.json'} and "
-              f"pair_consistent = {fitted['pair_consistent']:.4f} to {path}")
+    path = Path(str(resources.files("qacheck"))) / "judge_model.json"
+    path.write_text(json.dumps({"origin": origin, "model": fitted["model"].as_dict()}, indent=2)
+                    + "\n", encoding="utf-8")
+    err.print(f"wrote the sentence model (cut {fitted['model'].cut_:.4f}) to {path}")
 
 
 # --- models ---------------------------------------------------------------------------
@@ -388,8 +383,28 @@ def eval_qg_cmd(data, limit, model_dir, as_json) -> None:
                          for k, v in res.items() if k != "examples"))
 
 
+@models_eval.command("nli")
+@click.option("--data", required=True, type=click.Path(exists=True, dir_okay=False),
+              help="One JSON Lines file of entailment pairs (premise, hypothesis, label).")
+@click.option("--limit", type=int, help="Evaluate a fixed random sample of N pairs.")
+@click.option("--heldout", is_flag=True,
+              help="Only the pairs whose premise the trainer held out.")
+@click.option("--model", "model_dir", type=click.Path(exists=True, file_okay=False),
+              help="A model folder instead of the shipped model.")
+@click.option("--json", "as_json", is_flag=True, help="Print JSON.")
+def eval_nli_cmd(data, limit, heldout, model_dir, as_json) -> None:
+    """Accuracy, balanced accuracy and per-class recall of the entailment reader."""
+    from qacheck.evaluate import eval_nli
+    from qacheck.models.nli import NLIModel
+
+    res = eval_nli(Path(data), limit, NLIModel(Path(model_dir)) if model_dir else None, heldout)
+    click.echo(json.dumps(res, indent=2) if as_json else
+               "\n".join(f"{k}: {v:.3f}" if isinstance(v, float) else f"{k}: {v}"
+                         for k, v in res.items()))
+
+
 @models.command("lock")
-@click.argument("name", type=click.Choice(["qa", "qg"]))
+@click.argument("name", type=click.Choice(["qa", "qg", "nli"]))
 @click.option("--from", "src", required=True, type=click.Path(exists=True, file_okay=False),
               help="Model folder written by `qacheck train`.")
 @click.option("--evaluation", type=click.Path(exists=True, dir_okay=False),
@@ -411,7 +426,8 @@ def train() -> None:
 
 def _train_options(f):
     for opt in reversed([
-        click.option("--data", required=True, type=click.Path(exists=True, dir_okay=False)),
+        click.option("--data", required=True, type=click.Path(exists=True),
+                     help="Training data: a file (qa, qg) or the folder of entailment files (nli)."),
         click.option("--out", required=True, type=click.Path(file_okay=False),
                      help="Run folder: checkpoint.pt, train.log, model/ at the end."),
         click.option("--seed", default=13, show_default=True),
@@ -452,6 +468,19 @@ def train_qg_cmd(max_novel, **opts) -> None:
     from qacheck.train.qg import train_qg
 
     _train(train_qg, **opts, max_novel=max_novel)
+
+
+@train.command("nli")
+@_train_options
+@click.option("--qa-data", type=click.Path(exists=True, dir_okay=False, path_type=Path),
+              help="QA training file whose paragraphs give built claim pairs.")
+@click.option("--synthetic", default=15_000, show_default=True,
+              help="How many paragraphs to build claims from (0: none).")
+def train_nli_cmd(qa_data, synthetic, **opts) -> None:
+    """Train the claim-vs-evidence reader; --data is the folder of entailment files."""
+    from qacheck.train.nli import train_nli
+
+    _train(train_nli, **opts, qa_data=qa_data, synthetic=synthetic)
 
 
 def _train(trainer, data, out, seed, batch_size, lr, epochs, max_steps, limit, checkpoint_every,

@@ -26,14 +26,14 @@ class Thresholds:
     support_f1: float = 0.5
     #: a question survives the round trip when the output answer has this F1 with its span
     round_trip_f1: float = 0.5
-    #: a pair (or a sentence, scored alone) is ``consistent`` when the pair model's
-    #: probability is at or above this
-    pair_consistent: float = 0.5
     #: weight of answer agreement in a question's score; the rest is answerability alone.
     #: 0.5 measured best-balanced on the development judgements (README, "Measured")
     agreement_weight: float = 0.5
     #: at most this many answer spans are checked per sentence
     max_spans_per_sentence: int = 6
+    #: a sentence is also flagged under this P(faithful), even where the fitted cut is lower:
+    #: a stricter release gate for a scenario set (0 keeps the fitted cut alone)
+    sentence_floor: float = 0.0
 
     @classmethod
     def shipped(cls) -> "Thresholds":
@@ -52,7 +52,7 @@ class Thresholds:
         known = {f.name for f in fields(self)}
         for key in data:
             if key not in known:
-                raise InputError(f"unknown threshold (known: {', '.join(known)})", path=origin,
+                raise InputError(f"unknown threshold (known: {', '.join(sorted(known))})", path=origin,
                                  field=key)
         values = {}
         for key, value in data.items():
@@ -65,15 +65,28 @@ class Thresholds:
         return asdict(self)
 
 
-def signature(model_digests: dict[str, str], thresholds: Thresholds) -> dict[str, Any]:
-    """The reproducibility signature of a result: version, model digests, thresholds.
+#: bumped whenever a rule that shapes a verdict changes (answer matching, judging, segmenting),
+#: so results from older rules never mix with new ones in a cache or a baseline
+RULES_REVISION = 3
 
-    ``id`` is a short hash of everything else, printed with every score.
+
+def signature(models: dict[str, str], thresholds: Thresholds,
+              runtime: dict[str, Any]) -> dict[str, Any]:
+    """The reproducibility signature: everything that can change a result.
+
+    ``models`` maps each model to its sha256; ``runtime`` holds every runtime
+    setting of the models (window, stride, n-best, answer length, beams,
+    question clipping), the precision mode, the spaCy model and the versions
+    of torch, transformers and spaCy.  ``id`` hashes all of it with the
+    qacheck version, the thresholds and ``RULES_REVISION``; ``text`` is the
+    one line printed under every result.
     """
-    body = {"version": __version__, "models": dict(sorted(model_digests.items())),
-            "thresholds": thresholds.as_dict()}
+    body = {"version": __version__, "rules": RULES_REVISION,
+            "models": dict(sorted(models.items())), "thresholds": thresholds.as_dict(),
+            "runtime": dict(sorted(runtime.items()))}
     digest = hashlib.sha256(json.dumps(body, sort_keys=True).encode()).hexdigest()[:12]
-    models = "+".join(f"{k}:{v[:8]}" for k, v in sorted(model_digests.items()))
     body["id"] = digest
-    body["text"] = f"qacheck {__version__} | {models} | thresholds:{digest[:6]}"
+    short = ", ".join(f"{k} {v[:8]}" for k, v in sorted(models.items()))
+    body["text"] = (f"signature {digest} (qacheck {__version__}, rules r{RULES_REVISION}, "
+                    f"{runtime.get('precision', '?')}; {short})")
     return body

@@ -13,7 +13,7 @@ import time
 from pathlib import Path
 from typing import Any
 
-from qacheck.compare import best_over_references, exact_match, token_f1
+from qacheck.answer_match import best_over_references, exact_match, token_f1
 from qacheck.config import Thresholds
 from qacheck.models.qa import QAModel
 from qacheck.models.qg import QGModel
@@ -159,3 +159,43 @@ def eval_qg(data: Path, limit: int | None = None, qa: QAModel | None = None,
         out["rougeL"] = None
     return out
 
+
+
+def eval_nli(data: Path, limit: int | None = None, nli=None, heldout_only: bool = False
+             ) -> dict[str, Any]:
+    """Accuracy, balanced accuracy and per-class recall of the entailment reader on one file.
+
+    Reads the JSON Lines layout of ``../shared/data/nli/``.  A three-way file
+    is scored on the three labels; a two-way file on entailed vs the rest
+    (the reader's "contradicted" and "not supported" both count as
+    ``not_entailment``).  ``heldout_only`` keeps the pairs whose premise the
+    trainer held out (``qacheck.train.nli.heldout_premise``).
+    """
+    from qacheck.models.nli import NLIModel
+    from qacheck.train.nli import LABELS, NOT_ENTAILED, heldout_premise, read_nli_file
+
+    nli = nli or NLIModel()
+    pairs = read_nli_file(data)
+    if heldout_only:
+        pairs = [p for p in pairs if heldout_premise(p.premise)]
+    pairs = _sample(pairs, limit)
+    readings = nli.read([(p.premise, p.hypothesis) for p in pairs])
+    two_way = any(p.label == NOT_ENTAILED for p in pairs)
+    names = ("entailed", "not_entailed") if two_way else LABELS
+    truth, pred = [], []
+    for p, r in zip(pairs, readings):
+        probs = (r.entailed, r.contradicted, r.not_supported)
+        guess = max(range(3), key=lambda i: probs[i])
+        if two_way:
+            truth.append(0 if p.label == 0 else 1)
+            pred.append(0 if guess == 0 else 1)
+        else:
+            truth.append(p.label)
+            pred.append(guess)
+    recall = {names[c]: sum(t == c and q == c for t, q in zip(truth, pred)) / n
+              for c in range(len(names)) if (n := sum(t == c for t in truth))}
+    accuracy = sum(t == q for t, q in zip(truth, pred)) / len(truth) if truth else None
+    return {"file": data.name, "n": len(truth), "labels": "two-way" if two_way else "three-way",
+            "accuracy": accuracy,
+            "balanced_accuracy": sum(recall.values()) / len(recall) if recall else None,
+            "recall": recall}

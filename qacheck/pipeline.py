@@ -1,27 +1,30 @@
-"""The checker: wires segment -> spans -> questions -> answers -> comparisons -> verdicts.
+"""The checker: wires segment -> spans -> questions -> answers -> answer matches -> verdicts.
 
 Models load once, lazily, on first use.  ``check_many`` batches every stage
 across all pairs it is given: one spaCy pass, one QG call, one QA call on the
-outputs and one on the sources.
+outputs and one on the sources.  A question's round trip reads its sentence
+and the sentences on either side, never the whole output, so a sentence's
+verdict does not depend on what else the output says.
 """
 from __future__ import annotations
 
 import time
+from importlib.metadata import version
 from collections import Counter
 from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 
-from qacheck.compare import compare_answers, token_f1
+from qacheck.answer_match import match_answers, token_f1
 from qacheck.config import Thresholds, signature
 from qacheck.drafting import keeps_to_sentence, rule_question
 from qacheck.errors import InputError
+from qacheck.judge import SentenceModel, judge, question_outcome
+from qacheck.models.nli import NLIModel
 from qacheck.models.qa import QAModel
 from qacheck.models.qg import QGModel
-from qacheck.pairmodel import PairModel
-from qacheck.results import PairResult, QuestionResult, SentenceResult
-from qacheck.segment import Sentence, Span, segment_many
-from qacheck.verdict import judge, question_outcome
+from qacheck.results import ClaimResult, PairResult, QuestionResult, SentenceResult
+from qacheck.segment import SPACY_MODEL, Sentence, Span, segment_many
 
 
 @dataclass
@@ -31,6 +34,7 @@ class _Candidate:
     span: Span
     sentence_text: str
     offset: int  # sentence start in the output
+    window: tuple[int, int]  # the sentence and its neighbours: what the round trip reads
     drafts: list[tuple[str, str]]  # (drafter, question), in the order tried
 
 
@@ -43,9 +47,13 @@ class Checker:
     """
 
     def __init__(self, thresholds: Thresholds | None = None, qa: QAModel | None = None,
-                 qg: QGModel | None | bool = None, pair_model: PairModel | None = None) -> None:
+                 qg: QGModel | None | bool = None, model: SentenceModel | None = None,
+                 nli: NLIModel | None | bool = None) -> None:
         self.thresholds = thresholds or Thresholds.shipped()
-        self.pair_model = pair_model or PairModel.shipped()
+        self.model = model or SentenceModel.shipped()
+        if nli is None:
+            nli = NLIModel() if NLIModel.available() else False
+        self.nli: NLIModel | None = nli or None
         self.qa = qa or QAModel()
         if qg is None:
             qg = QGModel() if QGModel.available() else False
@@ -63,10 +71,43 @@ class Checker:
 
     @property
     def signature(self) -> dict:
-        digests = {"qa": self.qa.digest, "pair": self.pair_model.digest}
+        """Everything that can change a result (``qacheck.config.signature``)."""
+        return self._signature(with_judge=True)
+
+    @property
+    def evidence_signature(self) -> dict:
+        """Everything that can change the questions and answers, but not the judging.
+
+        Cached results are keyed by this, and judged again when read back, so
+        a refitted sentence model reuses every answer already computed.
+        """
+        return self._signature(with_judge=False)
+
+    def _signature(self, with_judge: bool) -> dict:
+        import spacy
+        import torch
+        import transformers
+
+        from qacheck.opposites import wordnet_available
+
+        digests = {"qa": self.qa.digest}
+        if with_judge:
+            digests["judge"] = self.model.digest
+        runtime = {"qa": self.qa.settings,
+                   "spacy_model": f"{SPACY_MODEL} {version(SPACY_MODEL.replace('_', '-'))}",
+                   "precision": "bf16" if self.qa.bf16 else "fp32",
+                   "torch": torch.__version__, "transformers": transformers.__version__,
+                   "spacy": spacy.__version__, "wordnet": "3.0" if wordnet_available() else "absent"}
         if self.qg is not None:
             digests["qg"] = self.qg.digest
-        return signature(digests, self.thresholds)
+            runtime["qg"] = self.qg.settings
+        if self.nli is not None:
+            from qacheck import retrieval
+
+            digests["nli"] = self.nli.digest
+            runtime["nli"] = {**self.nli.settings, "window_words": retrieval.WINDOW_WORDS,
+                              "top_k": retrieval.TOP_K}
+        return signature(digests, self.thresholds, runtime)
 
     def check(self, source: str, output: str) -> PairResult:
         """Check one (source, output) pair."""
@@ -85,28 +126,47 @@ class Checker:
         with self._stage("qa_source"):
             src_answers = self.qa.answer([(q, pairs[c.pair][0]) for c, _, q, _ in kept])
         sig = self.signature
-        results = []
-        by_pair: dict[int, list[SentenceResult]] = {}
-        for p, sents in enumerate(segmented):
-            by_pair[p] = [SentenceResult(s.text, s.start, s.end, None, "unchecked",
-                                         spans_considered=len(s.spans)) for s in sents]
+        by_pair = [[SentenceResult(s.text, s.start, s.end, None, "unverifiable",
+                                   spans_considered=len(s.spans)) for s in sents]
+                   for sents in segmented]
         for (cand, drafter, question, out_ans), src_ans in zip(kept, src_answers):
-            has = src_ans.no_answer_prob <= thr.no_answer and src_ans.has_answer
-            agreement = compare_answers(out_ans.text, src_ans.text)
-            outcome, score = question_outcome(agreement, src_ans.no_answer_prob, thr)
+            answered = src_ans.no_answer_prob <= thr.no_answer and src_ans.has_answer
+            m = match_answers(out_ans.text, src_ans.text, cand.span.kind)
+            outcome, score = question_outcome(m.agreement, m.conflict, src_ans.no_answer_prob, thr)
             by_pair[cand.pair][cand.sentence].questions.append(QuestionResult(
                 question=question, drafter=drafter, span=cand.span.text, span_kind=cand.span.kind,
                 output_answer=out_ans.text,
-                source_answer=src_ans.text if has else None,
-                source_start=src_ans.start if has else None,
-                source_end=src_ans.end if has else None,
-                no_answer_prob=round(src_ans.no_answer_prob, 4), f1=round(agreement.f1, 4),
-                value_kind=agreement.kind, same_value=agreement.same_value,
-                outcome=outcome, score=round(score, 4)))
-        for p, (src, out) in enumerate(pairs):
-            results.append(judge(PairResult(None, "unscored", by_pair[p], sig, {}, src, out),
-                                 thr, self.pair_model))
-        return results
+                source_answer=src_ans.text if answered else None,
+                source_start=src_ans.start if answered else None,
+                source_end=src_ans.end if answered else None,
+                no_answer_prob=round(src_ans.no_answer_prob, 4), f1=round(m.f1, 4),
+                match_kind=m.kind, same=m.same, conflict=m.conflict if answered else None,
+                conflict_detail=m.detail if answered else "", outcome=outcome,
+                score=round(score, 4)))
+        if self.nli is not None:
+            with self._stage("claims"):
+                self._read_claims(segmented, pairs, by_pair)
+        with self._stage("judge"):
+            return [judge(PairResult(None, "unscored", by_pair[p], sig, {}, src, out), self.model,
+                          thr.sentence_floor)
+                    for p, (src, out) in enumerate(pairs)]
+
+    def _read_claims(self, segmented: list[list[Sentence]], pairs: list[tuple[str, str]],
+                     by_pair: list[list[SentenceResult]]) -> None:
+        """Read each sentence as a claim against its best source windows; keep the window that
+        supports it best (highest P(entailed)) as its evidence."""
+        from qacheck.retrieval import best_windows
+
+        items = [(p, si, w) for p, sents in enumerate(segmented) for si, s in enumerate(sents)
+                 for w in best_windows(pairs[p][0], s.text)]
+        readings = self.nli.read([(w.text, segmented[p][si].text) for p, si, w in items])
+        best: dict[tuple[int, int], tuple] = {}
+        for (p, si, w), r in zip(items, readings):
+            if (p, si) not in best or r.entailed > best[p, si][1].entailed:
+                best[p, si] = (w, r)
+        for (p, si), (w, r) in best.items():
+            by_pair[p][si].claim = ClaimResult(w.start, w.end, round(r.entailed, 4),
+                                               round(r.contradicted, 4), round(r.not_supported, 4))
 
     def _questions(self, segmented: list[list[Sentence]], pairs: list[tuple[str, str]]):
         """Per span, the first draft that survives the round trip, with its answer on the output.
@@ -119,7 +179,8 @@ class Checker:
         of the beam search), and used only when it keeps to its sentence.
         """
         with self._stage("draft_rules"):
-            cands = [_Candidate(p, si, span, s.text, s.start, [("rules", rule_question(s.text, span))])
+            cands = [_Candidate(p, si, span, s.text, s.start, _neighbourhood(sents, si),
+                                [("rules", rule_question(s.text, span))])
                      for p, sents in enumerate(segmented) for si, s in enumerate(sents)
                      for span in s.spans]
         with self._stage("qa_output"):
@@ -140,15 +201,18 @@ class Checker:
         return sorted(kept, key=lambda k: order[id(k[0])])
 
     def _round_trip(self, cands: list[_Candidate], pairs: list[tuple[str, str]]):
-        """Ask each candidate's latest draft of its output: (kept, failed).
+        """Ask each candidate's latest draft of its sentence neighbourhood: (kept, failed).
 
-        A draft is kept when the QA model, reading the output, answers it with
-        the span itself (overlapping it, token F1 at least ``round_trip_f1``).
+        A draft is kept when the QA model, reading the sentence and its
+        neighbours, answers it with the span itself (overlapping it, token F1
+        at least ``round_trip_f1``).
         """
-        answers = self.qa.answer([(c.drafts[-1][1], pairs[c.pair][1]) for c in cands])
+        answers = self.qa.answer([(c.drafts[-1][1], pairs[c.pair][1][c.window[0]:c.window[1]])
+                                  for c in cands])
         kept, failed = [], []
         for c, a in zip(cands, answers):
-            span_abs = (c.offset + c.span.start, c.offset + c.span.end)
+            at = c.offset - c.window[0]  # the sentence's start inside its neighbourhood
+            span_abs = (at + c.span.start, at + c.span.end)
             overlaps = a.start < span_abs[1] and span_abs[0] < a.end
             if (a.has_answer and a.no_answer_prob <= self.thresholds.no_answer and overlaps
                     and token_f1(a.text, c.span.text) >= self.thresholds.round_trip_f1):
@@ -156,6 +220,11 @@ class Checker:
             else:
                 failed.append(c)
         return kept, failed
+
+
+def _neighbourhood(sents: list[Sentence], i: int) -> tuple[int, int]:
+    """Character range of sentence ``i`` with one sentence on either side."""
+    return sents[max(0, i - 1)].start, sents[min(len(sents) - 1, i + 1)].end
 
 
 def read_text(path: str | Path, field: str) -> str:

@@ -19,6 +19,7 @@ from typing import Any
 from qacheck.cache import ResultCache, cache_key
 from qacheck.config import Thresholds
 from qacheck.errors import InputError
+from qacheck.results import FLAGGED
 from qacheck.scenarios import Case, ScenarioSet
 
 RESULTS_FILE = "results.jsonl"
@@ -41,10 +42,10 @@ def case_status(case: Case, result: dict[str, Any] | None) -> tuple[str, list[st
     if "label" in exp and label != exp["label"]:
         reasons.append(f"label {label}, expected {exp['label']}")
     if "label" not in exp and label != "consistent":
-        cut = result["signature"]["thresholds"]["pair_consistent"]
-        why = (f"score {score:.2f} below the pair threshold {cut}" if score < cut else
-               "a question found a different number, date or quantity in the source")
-        reasons.append(f"label {label} ({why})")
+        flagged = [s for s in result["sentences"] if s["label"] in FLAGGED]
+        why = "; ".join(f'{s["label"]} "{s["text"]}" ({s["reason"]["text"]})' for s in flagged[:2])
+        reasons.append(f"label {label}: {why}" + (f" and {len(flagged) - 2} more sentences"
+                                                   if len(flagged) > 2 else ""))
     if "min_score" in exp and (score is None or score < exp["min_score"]):
         reasons.append(f"score {score} below min_score {exp['min_score']}")
     if "max_score" in exp and (score is None or score > exp["max_score"]):
@@ -85,10 +86,21 @@ class Scorer:
         self.thresholds = thresholds
         self.checker = checker or Checker(thresholds)
         self.cache, self.workers, self.batch_size = cache, max(1, workers), batch_size
+        self.model = self.checker.model
         self.signature = self.checker.signature
 
     def key(self, source: str, output: str) -> str:
-        return cache_key(self.signature["id"], source, output)
+        """The cache key: the texts and everything that shapes the answers, not the judging."""
+        return cache_key(self.checker.evidence_signature["id"], source, output)
+
+    def _rejudged(self, cached: dict[str, Any]) -> dict[str, Any]:
+        """A cached result judged under the current sentence model and signature."""
+        from qacheck.judge import judge
+        from qacheck.results import PairResult
+
+        result = PairResult.from_dict(cached)
+        result.signature = self.signature
+        return judge(result, self.model, self.thresholds.sentence_floor).to_dict(include_texts=True)
 
     def score(self, pairs: list[tuple[str, str]]) -> Iterator[tuple[int, dict[str, Any]]]:
         """Yield (index, result dict) as results become available (cached ones first)."""
@@ -96,7 +108,7 @@ class Scorer:
         for i, (src, out) in enumerate(pairs):
             hit = self.cache.get(self.key(src, out)) if self.cache else None
             if hit is not None:
-                yield i, hit
+                yield i, self._rejudged(hit)
             else:
                 todo.append(i)
         batches = [todo[b:b + self.batch_size] for b in range(0, len(todo), self.batch_size)]
@@ -246,8 +258,8 @@ def gate(current: dict[str, Any], records: list[dict[str, Any]], baseline_dir: P
     mismatch = base_summary["signature"]["id"] != current["signature"]["id"]
     if mismatch:
         msgs.append(f"SIGNATURES DIFFER: baseline {base_summary['signature']['text']} "
-                    f"(id {base_summary['signature']['id']}) vs this run "
-                    f"{current['signature']['text']} (id {current['signature']['id']}); "
+                    f"vs this run "
+                    f"{current['signature']['text']}; "
                     "scores are not comparable")
         if not allow_mismatch:
             raise InputError("refusing to compare runs with different signatures "

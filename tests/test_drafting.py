@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import pytest
 
-from qacheck.compare import token_f1
+from qacheck.answer_match import token_f1
 from qacheck.drafting import keeps_to_sentence, rule_question
 from qacheck.segment import Span, segment
 

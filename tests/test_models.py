@@ -43,7 +43,7 @@ def test_answers_carry_offsets_and_no_answer_probability(qa_model):
     [a] = qa_model.answer([("Who built the Orrin ferry?", ctx)])
     assert "Brenn" in a.text
     assert ctx[a.start:a.end] == a.text
-    assert 0.0 <= a.no_answer_prob <= 1.0 and 0.0 < a.score <= 1.0
+    assert a.no_answer_prob < 0.5 and a.score > 0.1
 
 
 def test_unanswerable_question_gets_high_no_answer_probability(qa_model):
@@ -69,8 +69,9 @@ def test_a_question_longer_than_a_window_is_clipped_not_fatal(qa_model):
     from qacheck.models.qa import QUESTION_TOKENS, clip_questions
 
     long_q = "Who " + "checked the ropes and the berths and the cranes " * 40 + "at Caldreth?"
-    [a] = qa_model.answer([(long_q, "Ilse Marrow checked the ropes at Caldreth.")])
-    assert 0.0 <= a.no_answer_prob <= 1.0
+    ctx = "Ilse Marrow checked the ropes at Caldreth."
+    [a] = qa_model.answer([(long_q, ctx)])
+    assert ctx[a.start:a.end] == a.text
     [clipped] = clip_questions(qa_model._tok, [long_q])
     assert long_q.startswith(clipped) and len(clipped) < len(long_q)
     assert len(qa_model._tok(clipped, add_special_tokens=False)["input_ids"]) == QUESTION_TOKENS
@@ -112,9 +113,9 @@ def test_tiny_qa_training_run_writes_a_loadable_model(tmp_path):
                                                        checkpoint_every=2), log=lambda *_: None)
     assert info["steps"] == 3 and info["train_unanswerable"] > 0
     model = QAModel(tmp_path / "run" / "model")
-    [a] = model.answer([("Who was the first manager?", "Depot 9 opened in Brack. Its first "
-                                                         "manager was Ada Vell.")])
-    assert 0.0 <= a.no_answer_prob <= 1.0
+    ctx = "Depot 9 opened in Brack. Its first manager was Ada Vell."
+    [a] = model.answer([("Who was the first manager?", ctx)])
+    assert ctx[a.start:a.end] == a.text
     log = (tmp_path / "run" / "train.log").read_text()
     assert '"event": "end"' in log
     # continuing from that model with in-situ questions added
@@ -198,4 +199,4 @@ def test_tiny_qg_training_run_writes_a_model_that_generates(tmp_path):
     assert info["steps"] == 2
     qg = QGModel(tmp_path / "qg" / "model", num_beams=2, max_new_tokens=8)
     [q] = qg.generate([("Its first manager was Ada Vell.", 22, 30)])
-    assert isinstance(q, str)
+    assert not {"[SEP]", "[PAD]", "[CLS]"} & set(q.split())  # decoded without special tokens

@@ -38,10 +38,11 @@ def test_faithful_paraphrase_is_supported(checker):
     assert r.label == "consistent"
 
 
-def test_nothing_checkable_is_unchecked_not_faithful(checker):
-    r = checker.check(SOURCE, "Well, that is it.")
-    assert _labels(r) == ["unchecked"]
-    assert r.score is None and r.label == "unscored"
+def test_a_sentence_without_questions_is_judged_by_its_words_and_counted(checker):
+    r = checker.check(SOURCE, "Well, that is it. The authority handled 412 vessel calls.")
+    assert [s.checked for s in r.sentences] == [False, True] and r.unchecked_share == 0.5
+    s = r.sentences[0]
+    assert s.evidence["unchecked"] == 1.0 and s.score is not None and s.reason is not None
 
 
 def test_same_input_same_json(checker):
@@ -59,14 +60,30 @@ def test_json_layout_and_signature(checker):
     for q in s["questions"]:
         assert {"question", "output_answer", "source_answer", "no_answer_prob", "f1",
                 "outcome"} <= set(q)
-    assert set(d["signature"]["models"]) >= {"qa"} and "thresholds" in d["signature"]
+    assert set(d["signature"]["models"]) >= {"qa", "judge"} and "thresholds" in d["signature"]
+    rt = d["signature"]["runtime"]
+    assert rt["qa"]["window"] == checker.qa.max_len and rt["precision"] in ("bf16", "fp32")
+    assert {"torch", "transformers", "spacy", "spacy_model"} <= set(rt)
+    assert "|" not in d["signature"]["text"] and d["signature"]["id"] in d["signature"]["text"]
 
 
 def test_batch_equals_one_by_one(checker):
-    outs = ["The authority handled 412 vessel calls.", "Two pilot boats were repaired in Brack."]
+    outs = ["The authority handled 412 vessel calls.", "Two pilot boats were repaired in Brack.",
+            "Ilse Marrow began the dredging on 9 January, and the work stopped in a storm."]
     batch = checker.check_many([(SOURCE, o) for o in outs])
     single = [checker.check(SOURCE, o) for o in outs]
     assert [r.to_dict() for r in batch] == [r.to_dict() for r in single]
+
+
+def test_answers_do_not_depend_on_what_else_is_in_the_batch(qa_model):
+    """Every forward pass has the same shape, so a question's answer is the same alone or
+    among many (it once differed in the fourth decimal)."""
+    pairs = [("Who began the dredging?", SOURCE), ("How many vessel calls were handled?", SOURCE),
+             ("What stopped the work?", SOURCE * 6)]
+    together = qa_model.answer(pairs)
+    alone = [qa_model.answer([p])[0] for p in pairs]
+    crowd = qa_model.answer(pairs + [("Who is the harbour master?", SOURCE)] * 40)[:3]
+    assert together == alone == crowd
 
 
 def test_empty_text_is_refused(checker):

@@ -1,15 +1,19 @@
-"""The QG evaluation harness: BLEU-4 and ROUGE-L agree with the reference libraries.
+"""The QG evaluation harness: BLEU-4 and ROUGE-L agree with independent implementations.
 
-Reference libraries: sacrebleu (Post 2018) corpus BLEU and Google's rouge-score,
-called directly on the same strings.  The drafter is a stand-in that returns
+BLEU-4 is checked against NLTK's corpus BLEU (an implementation of Papineni et
+al. 2002 independent of the sacrebleu the harness calls) on the same 13a
+tokens with the same exponential smoothing (Chen and Cherry 2014, method 3);
+ROUGE-L against Google's rouge-score.  The drafter is a stand-in that returns
 fixed strings, so the check is on the harness, not on a model.
 """
 from __future__ import annotations
 
 import json
 
-import sacrebleu
+import pytest
+from nltk.translate.bleu_score import SmoothingFunction, corpus_bleu
 from rouge_score import rouge_scorer
+from sacrebleu.tokenizers.tokenizer_13a import Tokenizer13a
 
 from qacheck.evaluate import eval_qg, qg_items
 
@@ -43,11 +47,14 @@ def test_bleu_and_rouge_match_reference_libraries(tmp_path, qa_model):
     drafter = FixedDrafter(items)
     res = eval_qg(path, qa=qa_model, qg=drafter)
     refs = [it[3] for it in items]
-    expected_bleu = sacrebleu.corpus_bleu(drafter.questions, [refs], lowercase=True).score
-    assert res["bleu4"] == expected_bleu
+    tok = Tokenizer13a()
+    expected_bleu = 100 * corpus_bleu([[tok(r.lower()).split()] for r in refs],
+                                      [tok(h.lower()).split() for h in drafter.questions],
+                                      smoothing_function=SmoothingFunction().method3)
+    assert res["bleu4"] == pytest.approx(expected_bleu, abs=1e-9)
     scorer = rouge_scorer.RougeScorer(["rougeL"], use_stemmer=True)
     expected_rouge = 100 * sum(scorer.score(r, h)["rougeL"].fmeasure
                                for r, h in zip(refs, drafter.questions)) / len(refs)
     assert abs(res["rougeL"] - expected_rouge) < 1e-9
-    assert res["n"] == 3 and 0.0 <= res["round_trip"] <= 1.0
+    assert res["n"] == 3
     assert res["round_trip"] >= res["round_trip_rules"]

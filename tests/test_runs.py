@@ -15,7 +15,6 @@ import pytest
 from click.testing import CliRunner
 
 from qacheck.cli import main
-from qacheck.config import Thresholds
 from qacheck.runner import Scorer, run_set
 from qacheck.scenarios import load_set
 
@@ -125,6 +124,14 @@ class _Counting:
     def signature(self):
         return self.inner.signature
 
+    @property
+    def evidence_signature(self):
+        return self.inner.evidence_signature
+
+    @property
+    def model(self):
+        return self.inner.model
+
     def check_many(self, pairs):
         self.pairs += len(pairs)
         return self.inner.check_many(pairs)
@@ -184,10 +191,6 @@ def test_set_thresholds_must_be_known(tmp_path):
     assert res.exit_code == 2 and "no_anwser" in res.output
 
 
-def test_default_thresholds_are_shipped():
-    assert 0.0 < Thresholds.shipped().pair_consistent < 1.0
-
-
 def test_workers_give_the_same_results_as_one_process(tmp_path):
     serial = _run(PORT, "--outputs", "writer-v2", "--results", tmp_path / "one", "--no-cache")
     parallel = _run(PORT, "--outputs", "writer-v2", "--results", tmp_path / "two", "--no-cache",
@@ -201,17 +204,17 @@ def test_workers_give_the_same_results_as_one_process(tmp_path):
     assert all(abs(a[1] - b[1]) < 0.02 for a, b in zip(one, two))
 
 
-def test_failure_reason_says_whether_the_score_or_a_value_conflict_failed_the_case():
-    """A pair is inconsistent when its score is under the cut *or* a question found another
-    value; the reason given must be the true one, not "below the threshold" for a 0.81."""
+def test_failure_reason_names_each_flagged_sentence_and_its_rule():
+    """A case fails because sentences were flagged; the reason must say which and why."""
     from qacheck.runner import case_status
     from qacheck.scenarios import Case
 
-    sig = {"thresholds": {"pair_consistent": 0.7}}
     case = Case("c1", "source text", "output text")
-    low = case_status(case, {"label": "inconsistent", "score": 0.42, "signature": sig})
-    conflict = case_status(case, {"label": "inconsistent", "score": 0.81, "signature": sig})
-    ok = case_status(case, {"label": "consistent", "score": 0.81, "signature": sig})
-    assert low == ("fail", ["label inconsistent (score 0.42 below the pair threshold 0.7)"])
-    assert conflict[0] == "fail" and "different number, date or quantity" in conflict[1][0]
+    flagged = {"label": "contradicted", "text": "Calls rose to 517.",
+               "reason": {"text": "a different value: the source says 412"}}
+    fine = {"label": "supported", "text": "The quay reopened.", "reason": {"text": "-"}}
+    bad = case_status(case, {"label": "inconsistent", "score": 0.2, "sentences": [flagged, fine]})
+    ok = case_status(case, {"label": "consistent", "score": 0.81, "sentences": [fine]})
+    assert bad == ("fail", ['label inconsistent: contradicted "Calls rose to 517." '
+                            '(a different value: the source says 412)'])
     assert ok == ("pass", [])

@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 from scipy import stats as sps
 
-from qacheck.agreement import balanced_accuracy, best_threshold, roc_auc
+from qacheck.human_agreement import balanced_accuracy, best_threshold, roc_auc
 from qacheck.stats import approximate_randomisation, paired_bootstrap_ci, paired_stats, verdict_sentence
 
 

@@ -41,6 +41,12 @@ class Answer:
 #: questions are cut to this many word pieces; a window must hold the question and more than
 #: its stride of context (an in-situ question from a run-on sentence can be very long)
 QUESTION_TOKENS = 96
+#: windows are padded to a multiple of this many tokens, batched only with windows of the same
+#: padded width, and every forward pass holds exactly ``ROWS`` windows (empty rows fill the
+#: last), so each matrix product has the same shape whatever else is scored: a window's
+#: numbers never depend on the batch it lands in (bf16 kernels pick their blocking by shape)
+PAD_MULTIPLE = 32
+ROWS = 16
 
 
 def clip_questions(tok, questions: list[str], max_tokens: int = QUESTION_TOKENS) -> list[str]:
@@ -57,12 +63,18 @@ class QAModel(LockedModel):
 
     def __init__(self, folder: Path | None = None, *, verify: bool = True, max_len: int = 384,
                  stride: int = 128, max_answer_tokens: int = 30, n_best: int = 20,
-                 batch_size: int = 32, bf16: bool | None = None) -> None:
+                 bf16: bool | None = None) -> None:
         super().__init__(folder, verify)
         self.max_len, self.stride = max_len, stride
         self.max_answer_tokens, self.n_best = max_answer_tokens, n_best
-        self.batch_size = batch_size
         self.bf16 = cpu_has_bf16() if bf16 is None else bf16
+
+    @property
+    def settings(self) -> dict[str, int | bool]:
+        """Every runtime setting that can change an answer (part of the signature)."""
+        return {"window": self.max_len, "stride": self.stride, "n_best": self.n_best,
+                "max_answer_tokens": self.max_answer_tokens, "question_tokens": QUESTION_TOKENS,
+                "pad_multiple": PAD_MULTIPLE, "rows": ROWS}
 
     def _load(self) -> None:
         if self._model is not None:
@@ -84,16 +96,21 @@ class QAModel(LockedModel):
                   max_length=self.max_len, stride=self.stride, return_overflowing_tokens=True,
                   return_offsets_mapping=True)
         n_win = len(enc["input_ids"])
-        order = sorted(range(n_win), key=lambda w: len(enc["input_ids"][w]))
+        padded = [-(-len(ids) // PAD_MULTIPLE) * PAD_MULTIPLE for ids in enc["input_ids"]]
+        order = sorted(range(n_win), key=lambda w: (padded[w], w))
+        by_width: dict[int, list[int]] = {}
+        for w in order:
+            by_width.setdefault(padded[w], []).append(w)
+        batches = [ws[b:b + ROWS] for ws in by_width.values() for b in range(0, len(ws), ROWS)]
         start_logits: list[np.ndarray | None] = [None] * n_win
         end_logits: list[np.ndarray | None] = [None] * n_win
         with torch.inference_mode(), autocast(self.bf16):
-            for b in range(0, n_win, self.batch_size):
-                idx = order[b:b + self.batch_size]
-                width = max(len(enc["input_ids"][w]) for w in idx)
-                ids = torch.full((len(idx), width), tok.pad_token_id, dtype=torch.long)
-                tt = torch.zeros((len(idx), width), dtype=torch.long)
-                mask = torch.zeros((len(idx), width), dtype=torch.long)
+            for idx in batches:
+                width = padded[idx[0]]
+                ids = torch.full((ROWS, width), tok.pad_token_id, dtype=torch.long)
+                tt = torch.zeros((ROWS, width), dtype=torch.long)
+                mask = torch.zeros((ROWS, width), dtype=torch.long)
+                mask[len(idx):, 0] = 1  # an empty row attends to its first token only
                 for r, w in enumerate(idx):
                     n = len(enc["input_ids"][w])
                     ids[r, :n] = torch.tensor(enc["input_ids"][w])

@@ -10,6 +10,9 @@ from qacheck.models.base import LockedModel
 from qacheck.models.runtime import autocast, cpu_has_bf16
 from qacheck.qg_format import qg_input
 
+#: the drafter reads at most this many word pieces of its (sentence, span) input
+INPUT_TOKENS = 96
+
 
 class QGModel(LockedModel):
     """The shipped seq2seq drafter (or a folder written by ``qacheck train qg``)."""
@@ -30,6 +33,12 @@ class QGModel(LockedModel):
         except lock.ModelIntegrityError:
             return False
         return True
+
+    @property
+    def settings(self) -> dict[str, int]:
+        """Every runtime setting that can change a question (part of the signature)."""
+        return {"beams": self.num_beams, "max_new_tokens": self.max_new_tokens,
+                "input_tokens": INPUT_TOKENS}
 
     def _load(self) -> None:
         if self._model is not None:
@@ -53,7 +62,7 @@ class QGModel(LockedModel):
             for b in range(0, len(order), self.batch_size):
                 idx = order[b:b + self.batch_size]
                 enc = self._tok([answers[i] for i in idx], [inputs[i] for i in idx],
-                                truncation="longest_first", max_length=96, padding=True,
+                                truncation="longest_first", max_length=INPUT_TOKENS, padding=True,
                                 return_tensors="pt")
                 gen = self._model.generate(**enc, num_beams=self.num_beams,
                                            max_new_tokens=self.max_new_tokens,

@@ -8,6 +8,7 @@ from __future__ import annotations
 from functools import lru_cache
 from typing import Any
 
+from qacheck.reports.views import excerpt, sentence_views
 from qacheck.results import CAUTION
 
 
@@ -19,6 +20,7 @@ def _env():
                       autoescape=select_autoescape(["html", "j2"]), trim_blocks=True,
                       lstrip_blocks=True)
     env.filters["fmt"] = lambda v: "-" if v is None else f"{v:.2f}"
+    env.globals.update(sentence_views=sentence_views, excerpt=excerpt)
     return env
 
 

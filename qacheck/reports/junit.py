@@ -4,16 +4,16 @@ from __future__ import annotations
 import xml.etree.ElementTree as ET
 from typing import Any
 
+from qacheck.reports.views import sentence_views
+
 
 def _flagged(record: dict[str, Any]) -> str:
     lines = []
-    for s in (record.get("result") or {}).get("sentences", []):
-        if s["label"] in ("contradicted", "unverifiable"):
-            lines.append(f"[{s['label']}] {s['text']}")
-            for q in s["questions"]:
-                if q["outcome"] != "supported":
-                    lines.append(f"    Q: {q['question']} | output: {q['output_answer']} | "
-                                 f"source: {q['source_answer']} | {q['outcome']}")
+    for v in sentence_views(record.get("result")):
+        lines.append(f"{v.label} ({v.rule}): {v.text}")
+        lines.append(f"    why: {v.why}")
+        if v.suggestion:
+            lines.append(f"    fix: {v.suggestion}")
     return "\n".join(lines)
 
 

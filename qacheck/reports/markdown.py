@@ -3,6 +3,7 @@ from __future__ import annotations
 
 from typing import Any
 
+from qacheck.reports.views import sentence_views
 from qacheck.results import CAUTION
 
 
@@ -31,19 +32,17 @@ def render_run(summary: dict[str, Any], records: list[dict[str, Any]],
                 for r in bad]
         out.append("")
         for r in bad:
-            flagged = [s for s in (r.get("result") or {}).get("sentences", [])
-                       if s["label"] in ("contradicted", "unverifiable")]
-            if flagged:
+            views = sentence_views(r.get("result"))
+            if views:
                 out.append(f"<details><summary>{_md(r['id'])}: flagged sentences</summary>\n")
-                for s in flagged:
-                    out.append(f"- **{s['label']}**: {_md(s['text'])}")
-                    for q in s["questions"]:
-                        if q["outcome"] != "supported":
-                            out.append(f"  - {_md(q['question'])} output: `{_md(q['output_answer'])}`"
-                                       f", source: `{_md(str(q['source_answer']))}`")
+                for v in views:
+                    out.append(f"- **{v.label}** ({v.rule}): {_md(v.text)}")
+                    out.append(f"  - why: {_md(v.why)}")
+                    if v.suggestion:
+                        out.append(f"  - fix: {_md(v.suggestion)}")
                 out.append("\n</details>\n")
     if summary["problems"]:
         out += ["### Input problems", ""] + [f"- {_md(p)}" for p in summary["problems"]] + [""]
-    out += [f"<sub>signature: {summary['signature']['text']} (id {summary['signature']['id']}). "
+    out += [f"<sub>{summary['signature']['text']}. "
             f"{CAUTION}</sub>", ""]
     return "\n".join(out)

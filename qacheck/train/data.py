@@ -28,7 +28,6 @@ import gzip
 import hashlib
 import json
 import random
-import re
 from collections import defaultdict
 from collections.abc import Iterator
 from dataclasses import dataclass
@@ -36,8 +35,8 @@ from pathlib import Path
 
 from qacheck.errors import InputError
 from qacheck.jsonl import iter_records
+from qacheck.segment import sentence_bounds as split_sentences
 
-_SENTENCE_END = re.compile(r"(?<=[.!?])\s+(?=[A-Z0-9\"'(])")
 
 
 @dataclass(frozen=True)
@@ -112,20 +111,6 @@ def read_qa_file(path: str | Path) -> list[QAExample]:
     if name.endswith(".jsonl"):
         return list(_from_jsonl(p))
     return list(_from_squad_json(p))
-
-
-def split_sentences(text: str) -> list[tuple[int, int]]:
-    """Cheap sentence boundaries (character spans) for building training data.
-
-    spaCy is used at scoring time; here a regex is enough and keeps data
-    construction over 100k records to seconds.
-    """
-    spans, start = [], 0
-    for m in _SENTENCE_END.finditer(text):
-        spans.append((start, m.start()))
-        start = m.end()
-    spans.append((start, len(text)))
-    return [(s, e) for s, e in spans if text[s:e].strip()]
 
 
 def answer_sentence(ex: QAExample) -> tuple[int, int] | None:

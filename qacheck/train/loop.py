@@ -64,6 +64,21 @@ def bucketed_batches(lengths: Sequence[int], batch_size: int, seed: int, epochs:
     return batches
 
 
+def pad_rows(rows: Sequence[dict[str, Any]], pad_id: int) -> dict[str, torch.Tensor]:
+    """Token ids, token types and attention mask of a batch, padded to its longest row
+    (rounded up to a multiple of 8 for the bf16 kernels)."""
+    width = (max(len(r["input_ids"]) for r in rows) + 7) // 8 * 8
+    ids = torch.full((len(rows), width), pad_id, dtype=torch.long)
+    tt = torch.zeros((len(rows), width), dtype=torch.long)
+    mask = torch.zeros((len(rows), width), dtype=torch.long)
+    for r, row in enumerate(rows):
+        n = len(row["input_ids"])
+        ids[r, :n] = torch.tensor(row["input_ids"])
+        tt[r, :n] = torch.tensor(row["token_type_ids"])
+        mask[r, :n] = 1
+    return {"input_ids": ids, "token_type_ids": tt, "attention_mask": mask}
+
+
 def _log(path: Path, record: dict[str, Any]) -> None:
     with open(path, "a", encoding="utf-8") as fh:
         fh.write(json.dumps(record) + "\n")

@@ -14,7 +14,7 @@ import torch
 
 from qacheck.models.qa import clip_questions
 from qacheck.train.data import QAExample, train_and_heldout
-from qacheck.train.loop import LoopConfig, export_model, train_loop
+from qacheck.train.loop import LoopConfig, export_model, pad_rows, train_loop
 
 MAX_LEN = 256
 STRIDE = 96
@@ -65,17 +65,7 @@ def make_collate(feats: list[dict[str, Any]], pad_id: int):
     """Pad a batch to its longest member (rounded to 8 for the bf16 kernels)."""
     def collate(idx: list[int]) -> dict[str, torch.Tensor]:
         rows = [feats[i] for i in idx]
-        width = max(len(r["input_ids"]) for r in rows)
-        width = (width + 7) // 8 * 8
-        ids = torch.full((len(rows), width), pad_id, dtype=torch.long)
-        tt = torch.zeros((len(rows), width), dtype=torch.long)
-        mask = torch.zeros((len(rows), width), dtype=torch.long)
-        for r, row in enumerate(rows):
-            n = len(row["input_ids"])
-            ids[r, :n] = torch.tensor(row["input_ids"])
-            tt[r, :n] = torch.tensor(row["token_type_ids"])
-            mask[r, :n] = 1
-        return {"input_ids": ids, "token_type_ids": tt, "attention_mask": mask,
+        return {**pad_rows(rows, pad_id),
                 "start_positions": torch.tensor([r["start_positions"] for r in rows]),
                 "end_positions": torch.tensor([r["end_positions"] for r in rows])}
     return collate

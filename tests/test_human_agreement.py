@@ -13,7 +13,7 @@ import pytest
 from click.testing import CliRunner
 
 from conftest import shared_file
-from qacheck.agreement import Judged, evaluate_file, read_judgements, sample
+from qacheck.human_agreement import Judged, evaluate_file, read_judgements, sample
 from qacheck.cli import main
 from qacheck.errors import InputError
 

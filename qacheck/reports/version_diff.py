@@ -4,7 +4,7 @@ from __future__ import annotations
 from qacheck.reports.html import render
 from qacheck.reports.markdown import _md
 from qacheck.results import CAUTION
-from qacheck.versions import Comparison, flagged
+from qacheck.version_diff import Comparison, flagged
 
 
 def _figures(c: Comparison) -> list[tuple[str, str]]:
@@ -37,7 +37,7 @@ def render_text(c: Comparison) -> str:
                                      f"source: {e['source_answer']!r}")
     if c.only_a or c.only_b:
         lines += ["", f"only in A: {', '.join(c.only_a) or '-'}; only in B: {', '.join(c.only_b) or '-'}"]
-    lines += ["", f"signature: {c.signature['text']} (id {c.signature['id']}); "
+    lines += ["", f"{c.signature['text']}; "
               f"{c.stats.resamples} resamples, seed {c.stats.seed}", CAUTION]
     return "\n".join(lines)
 
@@ -55,7 +55,7 @@ def render_markdown(c: Comparison) -> str:
             out.append(f"| {_md(p['id'])} | {p['score_a']:.3f} | {p['score_b']:.3f} | {p['diff']:+.3f} | {fl} |")
     if c.only_a or c.only_b:
         out += ["", f"Only in A: {_md(', '.join(c.only_a)) or '-'}; only in B: {_md(', '.join(c.only_b)) or '-'}"]
-    out += ["", f"<sub>signature {c.signature['text']} (id {c.signature['id']}); {c.stats.resamples} "
+    out += ["", f"<sub>{c.signature['text']}; {c.stats.resamples} "
             f"resamples, seed {c.stats.seed}. {CAUTION}</sub>", ""]
     return "\n".join(out)
 

@@ -93,6 +93,14 @@ def rouge_l_precision(source: str, output: str) -> float:
     return _rouge().score(source, output)["rougeL"].precision if output.strip() else 0.0
 
 
+def word_coverage(source: str, output: str) -> float:
+    """Share of the output's content words whose stem the source uses (``qacheck.words``)."""
+    from qacheck.words import novel_words
+
+    novel, n = novel_words(output, source)
+    return 1.0 - len(novel) / n if n else 1.0
+
+
 @lru_cache(maxsize=1)
 def _rouge():
     from rouge_score import rouge_scorer
@@ -206,19 +214,19 @@ def run_agreement(files: list[Path], scorer, limit: int | None = None, seed: int
             done += 1
             if progress:
                 progress(path.name, done, len(records))
-        baselines = {"rougeL_precision": [rouge_l_precision(r.source, r.output) for r in records]}
+        baselines = {"rougeL_precision": [rouge_l_precision(r.source, r.output) for r in records],
+                     "word_coverage": [word_coverage(r.source, r.output) for r in records]}
         if cosine is not None:
             segs = segment_many([r.source for r in records] + [r.output for r in records])
             n = len(records)
             baselines["minilm_cosine"] = [cosine.score([s.text for s in segs[i]],
                                                        [s.text for s in segs[n + i]])
                                           for i in range(n)]
-        fig = evaluate_file(records, results, baselines, scorer.thresholds.pair_consistent)
+        fig = evaluate_file(records, results, baselines, scorer.model.cut_)
         per_file[path.stem] = fig
         scores = [res["score"] if res["score"] is not None else UNSCORED_FALLBACK for res in results]
-        raw[path.stem] = {"y": [r.consistent for r in records],
-                          "features": [_evidence_of(r, res) for r, res in zip(records, results)],
-                          "records": records, "results": results, "baselines": baselines}
+        raw[path.stem] = {"y": [r.consistent for r in records], "records": records,
+                          "results": results, "baselines": baselines}
         pooled_y += raw[path.stem]["y"]
         pooled_s += scores
     overall = {"n": len(pooled_y), "roc_auc": roc_auc(pooled_y, pooled_s)}
@@ -226,62 +234,101 @@ def run_agreement(files: list[Path], scorer, limit: int | None = None, seed: int
             "limit": limit, "seed": seed}
 
 
-def rejudged_figures(raw: dict[str, Any], thresholds, model) -> dict[str, Any]:
-    """Per-file figures with every result judged again under ``model`` and ``thresholds``.
+def rejudged_figures(raw: dict[str, Any], model) -> dict[str, Any]:
+    """Per-file figures with every result judged again under ``model``.
 
     No model runs: verdicts follow from the cached question results.  After a
     fit these are in-sample figures (the model has seen these records).
     """
-    from qacheck.results import PairResult
-    from qacheck.verdict import judge
-
     out = {}
     for name, f in raw.items():
-        results = [judge(PairResult.from_dict({**res, "source": r.source, "output": r.output}),
-                         thresholds, model).to_dict() for r, res in zip(f["records"], f["results"])]
-        out[name] = evaluate_file(f["records"], results, f["baselines"], thresholds.pair_consistent)
+        results = _rejudge(f, model)
+        out[name] = evaluate_file(f["records"], results, f["baselines"], model.cut_)
     return out
 
 
-def _evidence_of(record: Judged, result: dict[str, Any]) -> dict[str, float] | None:
-    """The pair model's features, recomputed from a (possibly cached) result and its texts."""
-    from qacheck.pairmodel import evidence
+def _rejudge(f: dict[str, Any], model) -> list[dict[str, Any]]:
+    from qacheck.judge import judge
     from qacheck.results import PairResult
 
-    return evidence(PairResult.from_dict(result).sentences, record.source, record.output)
+    return [judge(PairResult.from_dict({**res, "source": r.source, "output": r.output}),
+                  model).to_dict() for r, res in zip(f["records"], f["results"])]
 
 
-def fit_pair_model(raw: dict[str, Any], c: float = 0.1) -> dict[str, Any]:
-    """Fit the pair model on every file, with leave-one-file-out figures and the pair cut.
+def sentence_labels(record: Judged, result: dict[str, Any], need: int) -> list[bool | None]:
+    """People's verdict on each sentence of a result: True faithful, False not, None unknown.
 
-    Each file's held-out figures come from a model *and* a cut fitted on the
-    other files only: an estimate of how the shipped model does on data it
-    never saw.  Unscored pairs (no question survived) have no features and
-    are left out of fitting; in the held-out figures they keep the
-    neutral score the harness gives them.
+    A file with annotated spans marks a sentence unfaithful when a span (with
+    enough votes) overlaps it.  Without spans, every sentence of a consistent
+    output is faithful, and the only sentence of an inconsistent one is not;
+    the sentences of a longer inconsistent output are unknown.
     """
-    from qacheck.pairmodel import fit
+    sents = result["sentences"]
+    bad = [sp for sp in record.spans if (sp.get("votes") or 1) >= need]
+    if bad:
+        return [not any(sp["start"] < s["end"] and s["start"] < sp["end"] for sp in bad)
+                for s in sents]
+    if record.consistent:
+        return [True] * len(sents)
+    return [False] if len(sents) == 1 else [None] * len(sents)
 
-    def rows(names):
-        return [(f, y) for n in names for f, y in zip(raw[n]["features"], raw[n]["y"])
-                if f is not None]
 
-    def scores(model, name):
-        return [model.probability(f) if f is not None else UNSCORED_FALLBACK
-                for f in raw[name]["features"]]
+def _sentence_rows(f: dict[str, Any]) -> tuple[list[dict[str, float]], list[bool], list[bool]]:
+    """Features, people's labels and whether a typed conflict fired, for labelled sentences."""
+    from qacheck.judge import sentence_features
+    from qacheck.results import PairResult
+
+    rows, y, hit = [], [], []
+    need = _votes_needed(f["records"])
+    for r, res in zip(f["records"], f["results"]):
+        pr = PairResult.from_dict(res)
+        for s, ok in zip(pr.sentences, sentence_labels(r, res, need)):
+            if ok is None:
+                continue
+            rows.append(sentence_features(s, r.source))
+            y.append(ok)
+            hit.append(any(q.conflict and q.outcome == "contradicted" for q in s.questions))
+    return rows, y, hit
+
+
+def fit_judge_model(raw: dict[str, Any], c: float = 0.1) -> dict[str, Any]:
+    """Fit the sentence model on every file, with leave-one-file-out figures.
+
+    Each file's held-out figures come from a model, a conflict precision and
+    a cut fitted on the other files only, applied with exactly the judging
+    rule that ships (``qacheck.judge``): an estimate of how the shipped model
+    does on data it never saw.  The cut maximises pair-level balanced
+    accuracy on the fitting files.
+    """
+    from dataclasses import replace
+
+    from qacheck.judge import SentenceModel
+
+    rows = {name: _sentence_rows(f) for name, f in raw.items()}
+
+    def fitted(names: list[str]):
+        x = [r for n in names for r in rows[n][0]]
+        y = [v for n in names for v in rows[n][1]]
+        hit = [v for n in names for v in rows[n][2]]
+        model = SentenceModel.fit(x, y, hit, c)
+        pair_y = [v for n in names for v in raw[n]["y"]]
+        pair_s = [res["score"] for n in names for res in _rejudge(raw[n], model)]
+        cut, ba = best_threshold(pair_y, pair_s)
+        return replace(model, cut_=cut), ba, len(x), sum(hit)
 
     held = {}
     for name in raw:
-        train = rows([n for n in raw if n != name])
-        if len({y for _, y in train}) < 2:
-            continue
-        model = fit([f for f, _ in train], [y for _, y in train], c)
-        cut, _ = best_threshold([y for _, y in train], [model.probability(f) for f, _ in train])
-        s = scores(model, name)
-        held[name] = {"roc_auc": roc_auc(raw[name]["y"], s), "cut_from_other_files": cut,
-                      "balanced_accuracy": balanced_accuracy(raw[name]["y"], [v >= cut for v in s])}
-    every = rows(list(raw))
-    model = fit([f for f, _ in every], [y for _, y in every], c)
-    cut, ba = best_threshold([y for _, y in every], [model.probability(f) for f, _ in every])
-    return {"model": model, "pair_consistent": cut, "balanced_accuracy_fitted": ba,
-            "n_fitted": len(every), "leave_one_file_out": held}
+        model, _, _, _ = fitted([n for n in raw if n != name])
+        results = _rejudge(raw[name], model)
+        fig = evaluate_file(raw[name]["records"], results, raw[name]["baselines"], model.cut_)
+        x, y, hit = rows[name]
+        fired = [not ok for ok, h in zip(y, hit) if h]
+        fig["conflict_flags"] = len(fired)
+        fig["conflict_precision"] = sum(fired) / len(fired) if fired else None
+        held[name] = {k: fig.get(k) for k in ("roc_auc", "balanced_accuracy", "sentence_precision",
+                                               "sentence_recall", "type_match", "conflict_flags",
+                                               "conflict_precision")}
+        held[name]["cut_from_other_files"] = model.cut_
+    model, ba, n, n_hit = fitted(list(raw))
+    return {"model": model, "balanced_accuracy_fitted": ba, "n_sentences": n,
+            "n_conflict_flags": n_hit, "leave_one_file_out": held}

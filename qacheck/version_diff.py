@@ -6,6 +6,7 @@ from pathlib import Path
 from typing import Any
 
 from qacheck.errors import InputError
+from qacheck.reports.views import sentence_views
 from qacheck.runner import load_results
 from qacheck.stats import PairedStats, paired_stats, verdict_sentence
 
@@ -47,15 +48,11 @@ class Comparison:
 
 
 def flagged(record: dict[str, Any]) -> list[dict[str, Any]]:
-    """Flagged sentences of a case record, with the failing questions as evidence."""
-    out = []
-    for s in (record.get("result") or {}).get("sentences", []):
-        if s["label"] in ("contradicted", "unverifiable"):
-            out.append({"text": s["text"], "label": s["label"], "score": s["score"],
-                        "evidence": [{k: q[k] for k in ("question", "output_answer", "source_answer",
-                                                        "outcome")}
-                                     for q in s["questions"] if q["outcome"] != "supported"]})
-    return out
+    """Flagged sentences of a case record, with the rule, the reason and the failing questions."""
+    return [{"text": v.text, "label": v.label, "score": v.score, "rule": v.rule, "why": v.why,
+             "evidence": [{k: q[k] for k in ("question", "output_answer", "source_answer",
+                                             "outcome")} for q in v.questions]}
+            for v in sentence_views(record.get("result"))]
 
 
 def compare_runs(a_dir: Path, b_dir: Path, resamples: int = 10_000, seed: int = 0,
@@ -68,7 +65,7 @@ def compare_runs(a_dir: Path, b_dir: Path, resamples: int = 10_000, seed: int = 
                          "versions can only be compared on the same set", path=b_dir)
     if sa["signature"]["id"] != sb["signature"]["id"] and not allow_mismatch:
         raise InputError(f"signatures differ (A {sa['signature']['text']}, id {sa['signature']['id']}; "
-                         f"B {sb['signature']['text']}, id {sb['signature']['id']}): rescore both "
+                         f"B {sb['signature']['text']}): rescore both "
                          "with the same models and thresholds, or pass --allow-signature-mismatch",
                          path=b_dir)
     a_by, b_by = {r["id"]: r for r in ra}, {r["id"]: r for r in rb}

@@ -13,13 +13,13 @@ def _f(v) -> str:
 
 def _table(title: str, files: dict[str, Any]) -> Table:
     table = Table(title=title)
-    for col in ("file", "n", "ROC AUC", "bal. acc.", "ROUGE-L P AUC", "MiniLM cos AUC",
-                "sent. P", "sent. R", "type match"):
+    for col in ("file", "n", "ROC AUC", "bal. acc.", "ROUGE-L P AUC", "word cov. AUC",
+                "MiniLM cos AUC", "sent. P", "sent. R", "type match"):
         table.add_column(col)
     for name, f in files.items():
         b = f["baselines"]
         table.add_row(name, str(f["n"]), _f(f["roc_auc"]), _f(f["balanced_accuracy"]),
-                      _f(b["rougeL_precision"]["roc_auc"]),
+                      _f(b["rougeL_precision"]["roc_auc"]), _f(b["word_coverage"]["roc_auc"]),
                       _f(b.get("minilm_cosine", {}).get("roc_auc")),
                       _f(f.get("sentence_precision")), _f(f.get("sentence_recall")),
                       _f(f.get("type_match")))
@@ -31,14 +31,18 @@ def render_agreement(res: dict[str, Any], console: Console) -> None:
     console.print(f"overall ROC AUC {_f(res['overall']['roc_auc'])} on {res['overall']['n']} records")
     if "fit" in res:
         fit = res["fit"]
-        console.print(f"fitted the pair model on {fit['n_fitted']} pairs; pair threshold "
-                      f"{fit['pair_consistent']:.4f} (balanced accuracy "
-                      f"{fit['balanced_accuracy_fitted']:.3f} on the fitting data). The figures above "
-                      "used the model shipped before this fit.")
+        console.print(f"fitted the sentence model on {fit['n_sentences']} labelled sentences; cut "
+                      f"{fit['model']['cut']:.4f}, typed-conflict precision "
+                      f"{fit['model']['conflict_precision']:.3f} over {fit['n_conflict_flags']} flags "
+                      f"(pair balanced accuracy {fit['balanced_accuracy_fitted']:.3f} on the fitting "
+                      "data). The figures above used the model shipped before this fit.")
         console.print(_table("in sample: judged again with the model just fitted on them",
                              fit["in_sample"]))
         console.print("held out (model and cut fitted on the other files only):")
         for name, h in fit["leave_one_file_out"].items():
             console.print(f"  {name}: ROC AUC {_f(h['roc_auc'])}, balanced accuracy "
-                          f"{h['balanced_accuracy']:.3f} (cut {h['cut_from_other_files']:.3f})")
-    console.print(f"[dim]signature: {res['signature']['text']}[/]")
+                          f"{h['balanced_accuracy']:.3f} (cut {h['cut_from_other_files']:.3f}), "
+                          f"sentence P/R {_f(h['sentence_precision'])}/{_f(h['sentence_recall'])}, "
+                          f"typed-conflict precision {_f(h['conflict_precision'])} "
+                          f"over {h['conflict_flags']} flags")
+    console.print(f"[dim]{res['signature']['text']}[/]")

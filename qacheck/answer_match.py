@@ -1,0 +1,169 @@
+"""Answer matching: does the source's answer to a question say what the output's answer says?
+
+Token F1 follows the official SQuAD v1.1 evaluation script (Rajpurkar et al.
+2016): lower-case, remove punctuation, drop the articles a/an/the, collapse
+white space.  Token F1 alone calls "1,200" and "twelve hundred" different and
+"80,000 crowns" and "8,000 crowns" half the same, so an answer match also
+looks at what the words mean:
+
+* values anywhere in the answers, compared value by value (``qacheck.values``);
+* opposite words and a negation on one side only (``qacheck.opposites``);
+* two different names given as the answer to a question about a name.
+
+A match of the last three kinds is a typed *conflict*: specific evidence that
+the output says something else than the source, which no fitted score may
+overrule (``qacheck.judge``).
+"""
+from __future__ import annotations
+
+import re
+import string
+from collections import Counter
+from dataclasses import dataclass
+
+from typing import Literal
+
+from rapidfuzz import fuzz
+
+from qacheck.opposites import one_sided_negation, opposite_pair
+from qacheck.values import compare_values, extract_values
+
+_ARTICLES = re.compile(r"\b(a|an|the)\b")
+_PUNCT = set(string.punctuation)
+
+
+def normalize_answer(s: str) -> str:
+    """The official SQuAD v1.1 normalisation."""
+    s = s.lower()
+    s = "".join(ch for ch in s if ch not in _PUNCT)
+    s = _ARTICLES.sub(" ", s)
+    return " ".join(s.split())
+
+
+def exact_match(prediction: str, truth: str) -> float:
+    return float(normalize_answer(prediction) == normalize_answer(truth))
+
+
+def token_f1(prediction: str, truth: str) -> float:
+    """SQuAD v1.1 token F1 between two strings (0 when either normalises to nothing).
+
+    The official script returns 0 for an empty side; two empty strings also
+    score 0 here, because "no answer" on both sides is handled by the
+    no-answer logic, never as agreement of two texts.
+    """
+    p = normalize_answer(prediction).split()
+    t = normalize_answer(truth).split()
+    common = Counter(p) & Counter(t)
+    same = sum(common.values())
+    if same == 0:
+        return 0.0
+    precision, recall = same / len(p), same / len(t)
+    return 2 * precision * recall / (precision + recall)
+
+
+def best_over_references(metric, prediction: str, truths: list[str]) -> float:
+    """Maximum of a metric over reference answers, as the official script does."""
+    return max((metric(prediction, t) for t in truths), default=0.0)
+
+
+# --- matching ------------------------------------------------------------------------
+
+#: how two answers were compared
+MatchKind = Literal["text", "amount", "time", "date", "name"]
+#: the typed conflicts: specific evidence of a contradiction
+Conflict = Literal["value", "opposite", "negation", "name"]
+
+#: spaCy entity kinds whose answer is a name: a different name is a different thing
+NAME_KINDS = frozenset({"PERSON", "ORG", "GPE", "LOC", "FAC", "NORP", "PRODUCT", "EVENT",
+                        "WORK_OF_ART", "LAW"})
+
+
+@dataclass(frozen=True)
+class AnswerMatch:
+    """How the output's answer and the source's answer to one question relate.
+
+    ``f1`` is SQuAD token F1; ``same`` says the two name the same text or
+    value; ``conflict`` names a typed contradiction (None when there is none)
+    and ``detail`` says what conflicts ("north vs south").
+    """
+
+    f1: float
+    same: bool
+    kind: MatchKind
+    conflict: Conflict | None = None
+    detail: str = ""
+
+    @property
+    def agreement(self) -> float:
+        """1 for the same text or value, 0 for a typed conflict, token F1 otherwise."""
+        if self.conflict is not None:
+            return 0.0
+        return 1.0 if self.same else self.f1
+
+
+def _looks_like_name(text: str) -> bool:
+    """Every content word capitalised ("Edda Quimby", "Port of Caldreth Authority")."""
+    words = [w for w in re.findall(r"[^\W\d_][\w'.-]*", text) if w.lower() not in _NAME_GLUE]
+    return bool(words) and all(w[0].isupper() for w in words)
+
+
+_NAME_GLUE = frozenset({"of", "the", "and", "for", "de", "van", "von", "der", "la", "le", "du", "da"})
+
+
+def match_answers(output_answer: str, source_answer: str, span_kind: str = "") -> AnswerMatch:
+    """Compare the output's answer with the source's answer to the same question.
+
+    In order: identical text; a value conflict; a one-sided negation; an
+    opposite word; the same value; two different names for a name question
+    (neither holds the other: "Quimby" and "Edda Quimby" name one person,
+    "Bram Okonedo" and "Edda Quimby" two); one answer holding the other
+    (rapidfuzz's token-set ratio is 100, "the authority" / "Port of Caldreth
+    Authority"); otherwise token F1 decides.
+    """
+    f1 = token_f1(output_answer, source_answer)
+    na, nb = normalize_answer(output_answer), normalize_answer(source_answer)
+    if na == nb:
+        return AnswerMatch(1.0, True, "text")
+    verdict, family = compare_values(extract_values(output_answer), extract_values(source_answer))
+    if verdict == "conflict":
+        return AnswerMatch(f1, False, family, "value", f"{output_answer} vs {source_answer}")
+    if one_sided_negation(output_answer, source_answer):
+        return AnswerMatch(f1, False, family or "text", "negation",
+                           f"{output_answer} vs {source_answer}")
+    opposite = opposite_pair(output_answer, source_answer)
+    if opposite is not None:
+        return AnswerMatch(f1, False, family or "text", "opposite", " vs ".join(opposite))
+    if verdict == "same":
+        return AnswerMatch(f1, True, family)
+    held = bool(na and nb) and fuzz.token_set_ratio(na, nb) == 100
+    if (span_kind in NAME_KINDS and not held and _looks_like_name(output_answer)
+            and _looks_like_name(source_answer) and not _same_name(output_answer, source_answer)
+            and _name_kinds_agree(span_kind, source_answer)):
+        return AnswerMatch(f1, False, "name", "name", f"{output_answer} vs {source_answer}")
+    return AnswerMatch(f1, held, "text")
+
+
+def _same_name(a: str, b: str) -> bool:
+    """One name spelt two ways: "Paris Saint - Germain" / "Paris Saint-Germain", a typo."""
+    squash = lambda t: re.sub(r"[\W_]+", "", t.lower())  # noqa: E731
+    return squash(a) == squash(b) or fuzz.ratio(squash(a), squash(b)) >= 90
+
+
+def _name_kinds_agree(span_kind: str, answer: str) -> bool:
+    """The source's answer names the same kind of thing (a person for a person), as spaCy sees it.
+
+    A team asked about and a player given back is the QA model answering
+    another question, not the source naming another team.  An answer spaCy
+    cannot type is given the benefit of the doubt.
+    """
+    from qacheck.segment import nlp
+
+    kinds = {e.label_ for e in nlp()(answer).ents}
+    if not kinds:
+        return True
+    people = {"PERSON"}
+    places_and_bodies = {"ORG", "GPE", "LOC", "FAC", "NORP"}
+    for group in (people, places_and_bodies):
+        if span_kind in group:
+            return bool(kinds & group)
+    return span_kind in kinds

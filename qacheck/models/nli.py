@@ -1,0 +1,95 @@
+"""The claim-vs-evidence reader: (evidence, claim) -> P(entailed), P(contradicted), P(not supported).
+
+One narrow interface, ``NLIModel.read(pairs)``, batched; every forward pass
+has the same shape for a given padded width (as in ``qacheck.models.qa``), so
+a claim's probabilities never depend on what else is in the batch.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+import torch
+
+from qacheck.models.base import LockedModel
+from qacheck.models.runtime import autocast, cpu_has_bf16
+
+#: the evidence window plus the claim are cut to this many word pieces (evidence first)
+MAX_TOKENS = 256
+PAD_MULTIPLE = 32
+ROWS = 16
+
+
+@dataclass(frozen=True)
+class Reading:
+    """What the reader makes of one claim against one evidence window."""
+
+    entailed: float
+    contradicted: float
+    not_supported: float
+
+
+class NLIModel(LockedModel):
+    """The shipped entailment reader (or a folder written by ``qacheck train nli``)."""
+
+    name = "nli"
+
+    def __init__(self, folder: Path | None = None, *, verify: bool = True,
+                 bf16: bool | None = None) -> None:
+        super().__init__(folder, verify)
+        self.bf16 = cpu_has_bf16() if bf16 is None else bf16
+
+    @staticmethod
+    def available() -> bool:
+        """True when the package ships a reader (models.lock has an ``nli`` entry)."""
+        from qacheck.models import lock
+
+        return "nli" in lock.read_lock().get("models", {})
+
+    @property
+    def settings(self) -> dict[str, int]:
+        """Every runtime setting that can change a reading (part of the signature)."""
+        return {"max_tokens": MAX_TOKENS, "pad_multiple": PAD_MULTIPLE, "rows": ROWS}
+
+    def _load(self) -> None:
+        if self._model is not None:
+            return
+        from transformers import AutoModelForSequenceClassification, AutoTokenizer
+
+        folder = self._resolve()
+        self._tok = AutoTokenizer.from_pretrained(folder)
+        self._model = AutoModelForSequenceClassification.from_pretrained(
+            folder, dtype=torch.float32).eval()
+
+    def read(self, pairs: list[tuple[str, str]]) -> list[Reading]:
+        """Read every (evidence, claim) pair."""
+        if not pairs:
+            return []
+        self._load()
+        tok = self._tok
+        enc = tok([e for e, _ in pairs], [c for _, c in pairs], truncation="only_first",
+                  max_length=MAX_TOKENS)
+        padded = [-(-len(ids) // PAD_MULTIPLE) * PAD_MULTIPLE for ids in enc["input_ids"]]
+        by_width: dict[int, list[int]] = {}
+        for i in sorted(range(len(pairs)), key=lambda i: (padded[i], i)):
+            by_width.setdefault(padded[i], []).append(i)
+        probs: list[list[float] | None] = [None] * len(pairs)
+        with torch.inference_mode(), autocast(self.bf16):
+            for width, items in by_width.items():
+                for b in range(0, len(items), ROWS):
+                    idx = items[b:b + ROWS]
+                    ids = torch.full((ROWS, width), tok.pad_token_id, dtype=torch.long)
+                    tt = torch.zeros((ROWS, width), dtype=torch.long)
+                    mask = torch.zeros((ROWS, width), dtype=torch.long)
+                    mask[len(idx):, 0] = 1
+                    for r, i in enumerate(idx):
+                        n = len(enc["input_ids"][i])
+                        ids[r, :n] = torch.tensor(enc["input_ids"][i])
+                        tt[r, :n] = torch.tensor(enc["token_type_ids"][i])
+                        mask[r, :n] = 1
+                    logits = self._model(input_ids=ids, token_type_ids=tt,
+                                         attention_mask=mask).logits.float()
+                    p = torch.softmax(logits, dim=-1).numpy()
+                    for r, i in enumerate(idx):
+                        probs[i] = [float(x) for x in p[r]]
+        return [Reading(*p) for p in probs]
