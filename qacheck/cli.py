@@ -5,6 +5,7 @@ Exit status: 0 success, 1 a gate failed (regression, integrity), 2 bad input.
 from __future__ import annotations
 
 import json
+import os
 import time
 import sys
 from pathlib import Path
@@ -58,11 +59,32 @@ def _thresholds(path: str | None):
     return Thresholds.shipped().merged(data.get("thresholds", data), origin=path)
 
 
+def check_writable(path: str | None, what: str = "out") -> None:
+    """Refuse an output path whose folder is missing or read-only, before any model loads."""
+    if not path:
+        return
+    folder = Path(path).resolve().parent
+    if not folder.is_dir():
+        raise InputError("folder does not exist", path=folder, field=what)
+    if not os.access(folder, os.W_OK):
+        raise InputError("folder is not writable", path=folder, field=what)
+
+
 def _write(text: str, out: str | None) -> None:
-    if out:
-        Path(out).write_text(text, encoding="utf-8")
-    else:
+    """Write a report; if that fails, keep the computed result beside in a temporary file."""
+    if not out:
         click.echo(text)
+        return
+    try:
+        Path(out).write_text(text, encoding="utf-8")
+    except OSError as exc:
+        import tempfile
+
+        fd, kept = tempfile.mkstemp(prefix="qacheck-", suffix=Path(out).suffix)
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(text)
+        raise InputError(f"cannot write ({exc.strerror}); the result was kept in {kept}",
+                         path=out, field="out") from exc
 
 
 @main.command()
@@ -83,11 +105,17 @@ def score(source, output, source_text, output_text, fmt, out, thr_file, verbose)
 
     if source_text is None and source is None:
         raise click.UsageError("give SOURCE or --source-text")
+    if source_text is not None and output_text is not None and source is not None:
+        raise click.UsageError("give the texts as files or as --source-text/--output-text, "
+                               "not both")
+    if source_text is not None and source is not None and output is not None:
+        raise click.UsageError("--source-text replaces SOURCE: give OUTPUT alone")
     if output_text is None:
         if output is None and source_text is not None:
             output, source = source, None
         if output is None:
             raise click.UsageError("give OUTPUT or --output-text")
+    check_writable(out)
     src = source_text if source_text is not None else read_text(source, "source")
     outp = output_text if output_text is not None else read_text(output, "output")
     for name, text in (("source", src), ("output", outp)):
@@ -104,8 +132,11 @@ def score(source, output, source_text, output_text, fmt, out, thr_file, verbose)
         from qacheck.reports.text import render_pair
 
         if out:
-            with open(out, "w", encoding="utf-8") as fh:
-                render_pair(result, Console(file=fh, width=120, no_color=True), verbose)
+            import io
+
+            buf = io.StringIO()
+            render_pair(result, Console(file=buf, width=120, no_color=True), verbose)
+            _write(buf.getvalue(), out)
         else:
             render_pair(result, Console(), verbose)
 

@@ -148,7 +148,7 @@ class Checker:
                 self._read_claims(segmented, pairs, by_pair)
         with self._stage("judge"):
             return [judge(PairResult(None, "unscored", by_pair[p], sig, {}, src, out), self.model,
-                          thr.sentence_floor)
+                          thr)
                     for p, (src, out) in enumerate(pairs)]
 
     def _read_claims(self, segmented: list[list[Sentence]], pairs: list[tuple[str, str]],
@@ -243,6 +243,9 @@ def read_text(path: str | Path, field: str) -> str:
     except UnicodeDecodeError as exc:
         line = data[: exc.start].count(b"\n") + 1
         raise InputError(f"not UTF-8 (byte {exc.start})", path=path, line=line, field=field) from exc
+    if "\x00" in text:
+        line = text[: text.index("\x00")].count("\n") + 1
+        raise InputError("contains NUL bytes (a binary file?)", path=path, line=line, field=field)
     if not text.strip():
         raise InputError("empty text", path=path, field=field)
     return text

@@ -21,6 +21,10 @@ from typing import Any
 from qacheck.errors import InputError
 
 EXPECT_KEYS = {"label", "min_score", "max_score"}
+#: what a set.toml may hold: a top-level key -> the type it must have; tables list their keys
+MANIFEST_KEYS: dict[str, type] = {"name": str, "description": str, "tags": list,
+                                  "thresholds": dict, "gate": dict}
+GATE_KEYS = {"tolerance"}
 
 
 @dataclass
@@ -96,10 +100,53 @@ def _text_field(rec: dict, key: str, path: Path, lineno: int, problems: list[Pro
     if not isinstance(value, str):
         problems.append(Problem(str(path), lineno, key, "must be a string", case_id))
         return None
+    if "\x00" in value:
+        problems.append(Problem(str(path), lineno, key, "contains NUL bytes", case_id))
+        return None
     if not value.strip():
         problems.append(Problem(str(path), lineno, key, "empty text", case_id))
         return None
     return value
+
+
+def _line_of(text: str, key: str, table: str | None = None) -> int | None:
+    """The line of ``key`` (inside ``[table]`` when given) in a TOML text, for error messages."""
+    import re
+
+    lines = text.splitlines()
+    start = 0
+    if table is not None:
+        start = next((i + 1 for i, ln in enumerate(lines)
+                      if re.match(rf"\s*\[\s*{re.escape(table)}\s*\]", ln)), 0)
+    for i in range(start, len(lines)):
+        if re.match(rf"\s*\[?\s*{re.escape(key)}\s*[\]=]", lines[i]):
+            return i + 1
+    return None
+
+
+def _check_manifest(manifest: dict[str, Any], path: Path) -> None:
+    """Refuse unknown tables and keys and wrongly typed values, naming the file and line, so a
+    typo ("[gaet]", "tolerence") is an error rather than a setting silently ignored."""
+    text = path.read_text(encoding="utf-8")
+    if "name" not in manifest:
+        raise InputError("missing", path=path, field="name")
+    for key, value in manifest.items():
+        if key not in MANIFEST_KEYS:
+            raise InputError(f"unknown key or table (known: {', '.join(sorted(MANIFEST_KEYS))})",
+                             path=path, line=_line_of(text, key), field=key)
+        if not isinstance(value, MANIFEST_KEYS[key]):
+            raise InputError(f"must be a {MANIFEST_KEYS[key].__name__.replace('dict', 'table')}",
+                             path=path, line=_line_of(text, key), field=key)
+    if any(not isinstance(t, str) for t in manifest.get("tags", [])):
+        raise InputError("must be a list of strings", path=path, line=_line_of(text, "tags"),
+                         field="tags")
+    for key, value in manifest.get("gate", {}).items():
+        if key not in GATE_KEYS:
+            raise InputError(f"unknown gate setting (known: {', '.join(sorted(GATE_KEYS))})",
+                             path=path, line=_line_of(text, key, "gate"), field=f"gate.{key}")
+        if not isinstance(value, (int, float)) or isinstance(value, bool):
+            raise InputError("must be a number", path=path, line=_line_of(text, key, "gate"),
+                             field=f"gate.{key}")
 
 
 def load_set(folder: str | Path, outputs: str | Path | None = None) -> ScenarioSet:
@@ -112,19 +159,24 @@ def load_set(folder: str | Path, outputs: str | Path | None = None) -> ScenarioS
         manifest = tomllib.loads(manifest_path.read_text(encoding="utf-8"))
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"not valid TOML ({exc})", path=manifest_path) from exc
-    for key in ("name",):
-        if key not in manifest:
-            raise InputError("missing", path=manifest_path, field=key)
+    _check_manifest(manifest, manifest_path)
     problems: list[Problem] = []
     cases_path = folder / "cases.jsonl"
     if not cases_path.exists():
         raise InputError("scenario set has no cases.jsonl", path=folder)
     cases: list[Case] = []
     seen: dict[str, int] = {}
-    for lineno, rec in _read_jsonl(cases_path, problems):
+    rows = _read_jsonl(cases_path, problems)
+    # a line that could not be read stays a case (an error case), so it is counted and reported
+    for p in list(problems):
+        cases.append(Case(f"{cases_path.name}:{p.line}", "", error=str(p)))
+        seen[cases[-1].id] = p.line or 0
+    for lineno, rec in rows:
         cid = rec.get("id")
         if not isinstance(cid, str) or not cid.strip():
             problems.append(Problem(str(cases_path), lineno, "id", "missing or not a string"))
+            cases.append(Case(f"{cases_path.name}:{lineno}", "", error=str(problems[-1])))
+            seen[cases[-1].id] = lineno
             continue
         if cid in seen:
             problems.append(Problem(str(cases_path), lineno, "id",
@@ -151,7 +203,8 @@ def load_set(folder: str | Path, outputs: str | Path | None = None) -> ScenarioS
         if not outputs_path.exists() and (folder / "outputs" / f"{outputs}.jsonl").exists():
             outputs_path = folder / "outputs" / f"{outputs}.jsonl"
         if not outputs_path.exists():
-            raise InputError("outputs file not found", path=outputs_path)
+            raise InputError(f"outputs file not found (looked for {outputs_path} and "
+                             f"{folder / 'outputs' / f'{outputs}.jsonl'})", path=outputs_path)
         outputs_name = outputs_path.stem
         by_id = {c.id: c for c in cases}
         got: dict[str, int] = {}
@@ -176,6 +229,7 @@ def load_set(folder: str | Path, outputs: str | Path | None = None) -> ScenarioS
             if c.id not in got and c.error is None:
                 c.output = None
                 c.error = f"{outputs_path}: no output for this case"
+    cases.sort(key=lambda c: seen.get(c.id, 0))
     for c in cases:
         if c.error is None and not c.output:
             c.error = f"{cases_path}:{seen[c.id]}: field 'output': missing (no outputs file given)"

@@ -103,6 +103,7 @@ def test_bad_input_is_named_and_never_aborts_good_cases(tmp_path):
             for x in (tmp_path / "out" / "results.jsonl").read_text().splitlines()}
     assert recs["good-1"]["status"] == "pass" and recs["good-2"]["status"] == "pass"
     assert recs["no-source"]["status"] == "error" and recs["empty-out"]["status"] == "error"
+    assert recs["cases.jsonl:2"]["status"] == "error"  # the malformed line is counted, not lost
 
 
 def test_bad_manifest_names_the_file(tmp_path):

@@ -1,6 +1,8 @@
 """Markdown for CI pages and pull-request comments."""
 from __future__ import annotations
 
+import html
+import re
 from typing import Any
 
 from qacheck.reports.views import sentence_views
@@ -11,15 +13,20 @@ def _f(v: float | None) -> str:
     return "-" if v is None else f"{v:.3f}"
 
 
+_MD_SPECIAL = re.compile(r"([\\`*_\[\]|~#!])")
+
+
 def _md(text: str) -> str:
-    return text.replace("|", "\\|").replace("\n", " ")
+    """Input text made inert in Markdown: HTML escaped (a CI page renders raw HTML), Markdown
+    punctuation backslash-escaped, kept on one line."""
+    return _MD_SPECIAL.sub(r"\\\1", html.escape(str(text), quote=False)).replace("\n", " ")
 
 
 def render_run(summary: dict[str, Any], records: list[dict[str, Any]],
                gate_messages: list[str] | None = None) -> str:
     """A run summary: totals, failing cases with their flagged sentences, signature."""
     st = summary["status"]
-    out = [f"## qacheck: {summary['set']} / {summary['outputs']}", "",
+    out = [f"## qacheck: {_md(summary['set'])} / {_md(summary['outputs'])}", "",
            f"**{st.get('pass', 0)} passed, {st.get('fail', 0)} failed, {st.get('error', 0)} errors, "
            f"{st.get('unscored', 0)} unscored** of {summary['cases']} cases; "
            f"mean score {_f(summary['mean_score'])}", ""]
