@@ -21,7 +21,7 @@ err = Console(stderr=True)
 
 def _fail(exc: QacheckError) -> None:
     err.print(f"[bold red]error:[/] {exc}", markup=True, highlight=False)
-    sys.exit(2 if isinstance(exc, InputError) else 1)
+    sys.exit(2 if isinstance(exc, (InputError, ModelIntegrityError)) else 1)
 
 
 class _Group(click.Group):
@@ -371,15 +371,32 @@ def models_eval() -> None:
     """Evaluate a shipped model on a data file."""
 
 
+def _eval_options(data_help: str, unit: str):
+    """The options every `models eval` command shares: data, sample, model folder, JSON."""
+    def wrap(f):
+        for opt in reversed([
+            click.option("--data", required=True, type=click.Path(exists=True, dir_okay=False),
+                         help=data_help),
+            click.option("--limit", type=int, help=f"Evaluate a fixed random sample of N {unit}."),
+            click.option("--model", "model_dir", type=click.Path(exists=True, file_okay=False),
+                         help="A model folder instead of the shipped model."),
+            click.option("--json", "as_json", is_flag=True, help="Print JSON."),
+        ]):
+            f = opt(f)
+        return f
+    return wrap
+
+
+def _print_figures(res: dict, as_json: bool, digits: int) -> None:
+    click.echo(json.dumps(res, indent=2) if as_json else
+               "\n".join(f"{k}: {v:.{digits}f}" if isinstance(v, float) else f"{k}: {v}"
+                         for k, v in res.items() if k != "examples"))
+
+
 @models_eval.command("qa")
-@click.option("--data", required=True, type=click.Path(exists=True, dir_okay=False),
-              help="SQuAD JSON (v1.1/v2.0) or JSONL records.")
-@click.option("--limit", type=int, help="Evaluate a fixed random sample of N questions.")
+@_eval_options("SQuAD JSON (v1.1/v2.0) or JSONL records.", "questions")
 @click.option("--heldout-seed", type=int,
               help="Evaluate the held-out titles (with constructed unanswerables) of a training file.")
-@click.option("--model", "model_dir", type=click.Path(exists=True, file_okay=False),
-              help="A model folder instead of the shipped model.")
-@click.option("--json", "as_json", is_flag=True, help="Print JSON.")
 def eval_qa_cmd(data, limit, heldout_seed, model_dir, as_json) -> None:
     """Exact match and F1 by the official SQuAD v1.1 rules (+ no-answer figures)."""
     from rich.progress import Progress
@@ -392,46 +409,31 @@ def eval_qa_cmd(data, limit, heldout_seed, model_dir, as_json) -> None:
         task = prog.add_task("answering", total=None)
         res = eval_qa(Path(data), limit, qa, heldout_seed,
                       progress=lambda d, t: prog.update(task, completed=d, total=t))
-    click.echo(json.dumps(res, indent=2) if as_json else
-               "\n".join(f"{k}: {v:.2f}" if isinstance(v, float) else f"{k}: {v}"
-                         for k, v in res.items()))
+    _print_figures(res, as_json, 2)
 
 
 @models_eval.command("qg")
-@click.option("--data", required=True, type=click.Path(exists=True, dir_okay=False))
-@click.option("--limit", type=int, help="Evaluate a fixed random sample of N answers.")
-@click.option("--model", "model_dir", type=click.Path(exists=True, file_okay=False),
-              help="A seq2seq folder instead of the shipped one.")
-@click.option("--json", "as_json", is_flag=True)
+@_eval_options("SQuAD JSON (v1.1/v2.0) or JSONL records.", "answers")
 def eval_qg_cmd(data, limit, model_dir, as_json) -> None:
     """Round-trip answerability, BLEU-4 and ROUGE-L of drafted questions."""
     from qacheck.evaluate import eval_qg
     from qacheck.models.qg import QGModel
 
     res = eval_qg(Path(data), limit, qg=QGModel(Path(model_dir)) if model_dir else None)
-    click.echo(json.dumps(res, indent=2) if as_json else
-               "\n".join(f"{k}: {v:.3f}" if isinstance(v, float) else f"{k}: {v}"
-                         for k, v in res.items() if k != "examples"))
+    _print_figures(res, as_json, 3)
 
 
 @models_eval.command("nli")
-@click.option("--data", required=True, type=click.Path(exists=True, dir_okay=False),
-              help="One JSON Lines file of entailment pairs (premise, hypothesis, label).")
-@click.option("--limit", type=int, help="Evaluate a fixed random sample of N pairs.")
+@_eval_options("One JSON Lines file of entailment pairs (premise, hypothesis, label).", "pairs")
 @click.option("--heldout", is_flag=True,
               help="Only the pairs whose premise the trainer held out.")
-@click.option("--model", "model_dir", type=click.Path(exists=True, file_okay=False),
-              help="A model folder instead of the shipped model.")
-@click.option("--json", "as_json", is_flag=True, help="Print JSON.")
 def eval_nli_cmd(data, limit, heldout, model_dir, as_json) -> None:
     """Accuracy, balanced accuracy and per-class recall of the entailment reader."""
     from qacheck.evaluate import eval_nli
     from qacheck.models.nli import NLIModel
 
     res = eval_nli(Path(data), limit, NLIModel(Path(model_dir)) if model_dir else None, heldout)
-    click.echo(json.dumps(res, indent=2) if as_json else
-               "\n".join(f"{k}: {v:.3f}" if isinstance(v, float) else f"{k}: {v}"
-                         for k, v in res.items()))
+    _print_figures(res, as_json, 3)
 
 
 @models.command("lock")

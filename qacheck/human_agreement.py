@@ -322,9 +322,9 @@ def fit_judge_model(raw: dict[str, Any], c: float = 0.1) -> dict[str, Any]:
         results = _rejudge(raw[name], model)
         fig = evaluate_file(raw[name]["records"], results, raw[name]["baselines"], model.cut_)
         x, y, hit = rows[name]
-        fired = [not ok for ok, h in zip(y, hit) if h]
-        fig["conflict_flags"] = len(fired)
-        fig["conflict_precision"] = sum(fired) / len(fired) if fired else None
+        wrong = [not ok for ok, h in zip(y, hit) if h]
+        fig["conflict_flags"] = len(wrong)
+        fig["conflict_precision"] = sum(wrong) / len(wrong) if wrong else None
         held[name] = {k: fig.get(k) for k in ("roc_auc", "balanced_accuracy", "sentence_precision",
                                                "sentence_recall", "type_match", "conflict_flags",
                                                "conflict_precision")}

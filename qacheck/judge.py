@@ -45,6 +45,8 @@ FEATURES: tuple[str, ...] = (
     "novel_fact_unanswered",  # a name/number/date question the source cannot answer, whose
                               # answer words the source never uses at all
     "unchecked",              # no question survived the round trip: judged by its words alone
+    "claim_entailed",         # the entailment reader: P(entailed) on the best-supporting window
+    "claim_contradicted",     # and P(contradicted) on that window
 )
 #: span kinds that name a specific fact (an entity or a value), as opposed to a noun chunk
 FACT_KINDS = frozenset({"DATE", "TIME", "MONEY", "PERCENT", "QUANTITY", "CARDINAL", "ORDINAL",
@@ -71,18 +73,26 @@ def question_outcome(agreement: float, conflict: str | None, no_answer_prob: flo
 
 
 def sentence_features(sentence: SentenceResult, source: str) -> dict[str, float]:
-    """The sentence model's inputs for one sentence, by name."""
+    """The sentence model's inputs for one sentence, by name.
+
+    A sentence without a reading (no entailment reader installed) gets the
+    reader's uninformed values, a third for each class.
+    """
     novel, n_content = novel_words(sentence.text, source)
     share = len(novel) / n_content if n_content else 0.0
+    c = sentence.claim
+    claim = {"claim_entailed": c.entailed if c else 1 / 3,
+             "claim_contradicted": c.contradicted if c else 1 / 3}
     qs = sentence.questions
     if not qs:
         return {"qa_mean": 0.0, "qa_min": 0.0, "novel_word_share": share,
-                "novel_fact_unanswered": 0.0, "unchecked": 1.0}
+                "novel_fact_unanswered": 0.0, "unchecked": 1.0, **claim}
     scores = [q.score for q in qs]
     fact = any(q.outcome == "unverifiable" and q.span_kind in FACT_KINDS
                and novel_words(q.span, source)[0] for q in qs)
     return {"qa_mean": sum(scores) / len(scores), "qa_min": min(scores),
-            "novel_word_share": share, "novel_fact_unanswered": float(fact), "unchecked": 0.0}
+            "novel_word_share": share, "novel_fact_unanswered": float(fact), "unchecked": 0.0,
+            **claim}
 
 
 @dataclass(frozen=True)
@@ -184,12 +194,19 @@ def _evidence_text(s: SentenceResult, feats: dict[str, float]) -> str:
 
 
 def judge_sentence(s: SentenceResult, source: str, model: SentenceModel,
-                   floor: float = 0.0) -> SentenceResult:
-    """A new sentence result with its score, label and reason (flagged under max(cut, floor))."""
+                   thr: Thresholds) -> SentenceResult:
+    """A new sentence result with its score, label and reason.
+
+    A typed conflict on a question labels it outright; otherwise the sentence
+    model's P(faithful) is compared with max(cut, ``thr.sentence_floor``).
+    The entailment reader is weighed evidence only: as a rule ("contradicted
+    at P >= 0.9") it was right on 3 of 12 development sentences, so it labels
+    nothing on its own.
+    """
     feats = sentence_features(s, source)
     novel = novel_words(s.text, source)[0]
     p = model.predict_proba(feats)
-    cut = max(model.cut_, floor)
+    cut = max(model.cut_, thr.sentence_floor)
     hit = _first_conflict(s.questions)
     if hit is not None:
         q = s.questions[hit]
@@ -213,14 +230,15 @@ def judge_sentence(s: SentenceResult, source: str, model: SentenceModel,
         + _evidence_text(done, feats), round(p, 4), cut))
 
 
-def judge(result: PairResult, model: SentenceModel, floor: float = 0.0) -> PairResult:
+def judge(result: PairResult, model: SentenceModel, thr: Thresholds | None = None) -> PairResult:
     """A new result with every sentence judged and the pair verdict that follows from them.
 
     The pair's score is its weakest sentence's score; it is ``inconsistent``
     when any sentence is flagged, ``unscored`` only when it has no sentence.
-    ``floor`` is ``Thresholds.sentence_floor``.
+    ``thr`` defaults to the shipped thresholds.
     """
-    sentences = [judge_sentence(s, result.source, model, floor) for s in result.sentences]
+    thr = thr or Thresholds.shipped()
+    sentences = [judge_sentence(s, result.source, model, thr) for s in result.sentences]
     if not sentences:
         return replace(result, score=None, label="unscored", sentences=[], counts={},
                        unchecked_share=0.0)

@@ -20,6 +20,7 @@ from qacheck.config import Thresholds, signature
 from qacheck.drafting import keeps_to_sentence, rule_question
 from qacheck.errors import InputError
 from qacheck.judge import SentenceModel, judge, question_outcome
+from qacheck.language import language_warnings
 from qacheck.models.nli import NLIModel
 from qacheck.models.qa import QAModel
 from qacheck.models.qg import QGModel
@@ -60,6 +61,9 @@ class Checker:
         self.qg: QGModel | None = qg or None
         #: seconds spent in each stage since creation (read by the benchmark)
         self.stage_seconds: Counter[str] = Counter()
+        for m in (self.qa, self.qg, self.nli):
+            if m is not None:
+                m.verify_files()
 
     @contextmanager
     def _stage(self, name: str):
@@ -147,8 +151,8 @@ class Checker:
             with self._stage("claims"):
                 self._read_claims(segmented, pairs, by_pair)
         with self._stage("judge"):
-            return [judge(PairResult(None, "unscored", by_pair[p], sig, {}, src, out), self.model,
-                          thr)
+            return [judge(PairResult(None, "unscored", by_pair[p], sig, {}, src, out,
+                                     warnings=language_warnings(src, out)), self.model, thr)
                     for p, (src, out) in enumerate(pairs)]
 
     def _read_claims(self, segmented: list[list[Sentence]], pairs: list[tuple[str, str]],

@@ -11,9 +11,8 @@ from typing import Any, Literal
 QuestionOutcome = Literal["supported", "contradicted", "unverifiable"]
 SentenceLabel = Literal["supported", "contradicted", "unverifiable"]
 PairLabel = Literal["consistent", "inconsistent", "unscored"]
-#: which rule set a sentence's label: a typed conflict on one question, a confident
-#: contradiction by the entailment reader, or the sentence model
-Rule = Literal["value", "opposite", "negation", "name", "claim", "evidence"]
+#: which rule set a sentence's label: a typed conflict on one question, or the sentence model
+Rule = Literal["value", "opposite", "negation", "name", "evidence"]
 FLAGGED: tuple[SentenceLabel, ...] = ("contradicted", "unverifiable")
 
 CAUTION = ("An automatic faithfulness score is not proof of correctness: it can miss errors and "
@@ -109,6 +108,8 @@ class PairResult:
     output: str = ""
     #: share of sentences where no question survived (judged by their words alone)
     unchecked_share: float = 0.0
+    #: things a reader must know before trusting the verdict (e.g. the text is not English)
+    warnings: list[str] = field(default_factory=list)
 
     def to_dict(self, include_texts: bool = False) -> dict[str, Any]:
         d = asdict(self)
@@ -125,7 +126,8 @@ class PairResult:
                                    "claim": ClaimResult(**s["claim"]) if s.get("claim") else None})
                  for s in d["sentences"]]
         return cls(d["score"], d["label"], sents, d["signature"], d.get("counts", {}),
-                   d.get("source", ""), d.get("output", ""), d.get("unchecked_share", 0.0))
+                   d.get("source", ""), d.get("output", ""), d.get("unchecked_share", 0.0),
+                   list(d.get("warnings", [])))
 
     def source_excerpt(self, q: QuestionResult, width: int = 90) -> str:
         """The stretch of source around the source answer, for evidence views."""

@@ -12,6 +12,7 @@ import os
 import time
 from collections.abc import Callable, Iterator
 from concurrent.futures import ProcessPoolExecutor
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -100,7 +101,7 @@ class Scorer:
 
         result = PairResult.from_dict(cached)
         result.signature = self.signature
-        return judge(result, self.model, self.thresholds.sentence_floor).to_dict(include_texts=True)
+        return judge(result, self.model, self.thresholds).to_dict(include_texts=True)
 
     def score(self, pairs: list[tuple[str, str]]) -> Iterator[tuple[int, dict[str, Any]]]:
         """Yield (index, result dict) as results become available (cached ones first)."""
@@ -171,19 +172,64 @@ def load_results(folder: str | Path) -> tuple[dict[str, Any], list[dict[str, Any
     return summary, _read_results(folder / RESULTS_FILE)
 
 
+@contextmanager
+def folder_lock(results_dir: Path) -> Iterator[None]:
+    """One run per results folder: an advisory lock on ``.lock``, naming its holder when taken."""
+    import fcntl
+
+    lock_path = results_dir / ".lock"
+    fh = open(lock_path, "a+", encoding="utf-8")
+    try:
+        try:
+            fcntl.flock(fh, fcntl.LOCK_EX | fcntl.LOCK_NB)
+        except BlockingIOError:
+            fh.seek(0)
+            holder = fh.read().strip() or "another process"
+            raise InputError(f"another qacheck run is writing this results folder ({holder}); "
+                             "wait for it or choose another --results folder",
+                             path=results_dir) from None
+        fh.seek(0)
+        fh.truncate()
+        fh.write(f"pid {os.getpid()} since {time.strftime('%Y-%m-%d %H:%M:%S')}\n")
+        fh.flush()
+        yield
+    finally:
+        fh.close()
+
+
+def _write_atomic(path: Path, text: str) -> None:
+    """Write to a temporary name and rename into place, so no reader sees half a file."""
+    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
+    tmp.write_text(text, encoding="utf-8")
+    os.replace(tmp, path)
+
+
 def run_set(sset: ScenarioSet, results_dir: Path, scorer: Scorer,
             progress: Callable[[int, int], None] | None = None) -> RunOutcome:
-    """Score every case of ``sset`` into ``results_dir`` (resuming) and write the summary."""
+    """Score every case of ``sset`` into ``results_dir`` (resuming) and write the summary.
+
+    The folder is locked for the run.  A case kept from an earlier run keeps
+    its stored verdict, but its status is derived again from the current
+    expectations.
+    """
     results_dir.mkdir(parents=True, exist_ok=True)
+    with folder_lock(results_dir):
+        return _run_locked(sset, results_dir, scorer, progress)
+
+
+def _run_locked(sset: ScenarioSet, results_dir: Path, scorer: Scorer,
+                progress: Callable[[int, int], None] | None) -> RunOutcome:
     path = results_dir / RESULTS_FILE
     keys = {c.id: scorer.key(c.source, c.output or "") for c in sset.cases}
-    previous = {r["id"]: r for r in _read_results(path) if r.get("key") == keys.get(r["id"])}
-    tmp = path.with_suffix(".tmp")
-    with open(tmp, "w", encoding="utf-8") as fh:
-        for c in sset.cases:
-            if c.id in previous:
-                fh.write(json.dumps(previous[c.id], ensure_ascii=False) + "\n")
-    os.replace(tmp, path)
+    by_id = {c.id: c for c in sset.cases}
+    previous = {}
+    for r in _read_results(path):
+        if r.get("key") == keys.get(r["id"]) and r.get("result") is not None:
+            status, reasons = case_status(by_id[r["id"]], r["result"])
+            previous[r["id"]] = {**r, "status": status, "reasons": reasons,
+                                 "expect": by_id[r["id"]].expect}
+    _write_atomic(path, "".join(json.dumps(previous[c.id], ensure_ascii=False) + "\n"
+                                for c in sset.cases if c.id in previous))
     t0 = time.time()
     records = {cid: previous[cid] for cid in previous}
     done = len(records)
@@ -216,7 +262,7 @@ def run_set(sset: ScenarioSet, results_dir: Path, scorer: Scorer,
                    "expect": c.expect, "result": res})
     ordered = [records[c.id] for c in sset.cases if c.id in records]
     summary = summarise(sset, ordered, scorer.signature, time.time() - t0)
-    (results_dir / SUMMARY_FILE).write_text(json.dumps(summary, indent=2, ensure_ascii=False))
+    _write_atomic(results_dir / SUMMARY_FILE, json.dumps(summary, indent=2, ensure_ascii=False))
     return RunOutcome(summary, ordered)
 
 
@@ -236,6 +282,7 @@ def summarise(sset: ScenarioSet, records: list[dict[str, Any]], signature: dict[
         "cases": len(records), "status": status_counts, "sentences": sentence_counts,
         "mean_score": sum(scores) / len(scores) if scores else None,
         "problems": [str(p) for p in sset.problems], "seconds": round(seconds, 2),
+        "warned_cases": [r["id"] for r in records if (r["result"] or {}).get("warnings")],
     }
 
 
@@ -265,17 +312,24 @@ def gate(current: dict[str, Any], records: list[dict[str, Any]], baseline_dir: P
             raise InputError("refusing to compare runs with different signatures "
                              "(pass --allow-signature-mismatch to compare anyway): " + msgs[0],
                              path=baseline_dir)
-    drop = None
-    if base_summary.get("mean_score") is not None and current.get("mean_score") is not None:
-        drop = base_summary["mean_score"] - current["mean_score"]
     before = {r["id"]: r for r in base_records}
-    newly = [r for r in records if r["status"] in ("fail", "error")
+    now = {r["id"]: r for r in records}
+    both = [cid for cid in now if cid in before and now[cid]["score"] is not None
+            and before[cid]["score"] is not None]
+    drop = None
+    if both:
+        # the same cases on both sides: a mean over different subsets would compare nothing
+        drop = (sum(before[c]["score"] for c in both) - sum(now[c]["score"] for c in both)) / len(both)
+    newly = [r for r in records if r["status"] in ("fail", "error", "unscored")
              and before.get(r["id"], {}).get("status") == "pass"]
-    ok = not newly and (drop is None or drop <= tolerance)
+    nothing = not any(r["score"] is not None for r in records)
+    ok = not newly and not nothing and (drop is None or drop <= tolerance)
+    if nothing:
+        msgs.append("no case was scored in this run: nothing to compare, the gate fails")
     if drop is not None and drop > tolerance:
-        msgs.append(f"mean score dropped by {drop:.3f} (tolerance {tolerance:.3f}): "
-                    f"{base_summary['mean_score']:.3f} -> {current['mean_score']:.3f}")
+        msgs.append(f"mean score over the {len(both)} cases scored in both runs dropped by "
+                    f"{drop:.3f} (tolerance {tolerance:.3f})")
     for r in newly:
-        msgs.append(f"case {r['id']} passed in the baseline and now {r['status']}s: "
+        msgs.append(f"case {r['id']} passed in the baseline and now is {r['status']}: "
                     + "; ".join(r["reasons"]))
     return GateResult(ok, mismatch, drop, newly, msgs)

@@ -5,6 +5,7 @@ implementation (the reference for how a CI page will render the summary).
 """
 from __future__ import annotations
 
+import json
 import shutil
 from pathlib import Path
 
@@ -98,3 +99,119 @@ def test_markdown_summary_keeps_input_text_inert():
     assert "<script" not in page and "<img" not in page and "<strong>loud" not in page
     assert 'href="javascript' not in page
     assert "&lt;script&gt;" in page  # shown as text
+
+
+class _FakeScorer:
+    """Stands in for the models: every pair gets the same canned result (score 0.8)."""
+
+    signature = {"id": "fake", "text": "signature fake"}
+
+    def __init__(self):
+        self.scored = 0
+
+    def key(self, source, output):
+        return f"{len(source)}-{len(output)}"
+
+    def score(self, pairs):
+        for i, _ in enumerate(pairs):
+            self.scored += 1
+            yield i, {"score": 0.8, "label": "consistent", "sentences": [],
+                      "signature": self.signature}
+
+
+def test_a_resumed_run_derives_status_from_the_current_expectations(tmp_path):
+    from qacheck.runner import run_set
+
+    d = _set(tmp_path, 'name = "x"\n')
+    first = run_set(load_set(d, "writer-v1"), tmp_path / "out", _FakeScorer())
+    assert {r["status"] for r in first.records} == {"pass"}
+    lines = [json.loads(x) for x in (d / "cases.jsonl").read_text().splitlines()]
+    lines[0]["expect"] = {"min_score": 0.9}
+    (d / "cases.jsonl").write_text("\n".join(json.dumps(x) for x in lines) + "\n")
+    again = _FakeScorer()
+    second = run_set(load_set(d, "writer-v1"), tmp_path / "out", again)
+    assert again.scored == 0  # nothing rescored
+    assert second.records[0]["status"] == "fail" and "min_score" in second.records[0]["reasons"][0]
+
+
+def test_one_run_per_results_folder(tmp_path):
+    from qacheck.runner import folder_lock, run_set
+
+    out = tmp_path / "out"
+    out.mkdir()
+    with folder_lock(out):
+        with pytest.raises(InputError, match="another qacheck run"):
+            run_set(load_set(PORT, "writer-v1"), out, _FakeScorer())
+
+
+def _baseline(folder: Path, records: list[dict]) -> Path:
+    folder.mkdir()
+    scores = [r["score"] for r in records if r["score"] is not None]
+    (folder / "summary.json").write_text(json.dumps({
+        "signature": {"id": "fake", "text": "signature fake"},
+        "mean_score": sum(scores) / len(scores) if scores else None}))
+    (folder / "results.jsonl").write_text("\n".join(json.dumps(r) for r in records) + "\n")
+    return folder
+
+
+def _rec(cid, status, score):
+    return {"id": cid, "status": status, "score": score, "reasons": [f"{status} reason"]}
+
+
+def test_gate_fails_when_nothing_was_scored_and_pairs_cases_by_id(tmp_path):
+    from qacheck.runner import gate
+
+    base = _baseline(tmp_path / "base", [_rec("a", "pass", 0.9), _rec("b", "pass", 0.5)])
+    current = {"signature": {"id": "fake", "text": "signature fake"}}
+    unscored = [_rec("a", "unscored", None), _rec("b", "unscored", None)]
+    g = gate(current, unscored, base, 0.03, False)
+    assert not g.ok and any("no case was scored" in m for m in g.messages)
+    assert {r["id"] for r in g.newly_failing} == {"a", "b"}  # pass -> unscored is a regression
+    # only case b is scored now, at its old score: the mean over shared cases did not drop,
+    # although the mean over all scored cases fell from 0.7 to 0.5
+    g = gate(current, [_rec("a", "error", None), _rec("b", "pass", 0.5)], base, 0.03, False)
+    assert g.mean_drop == 0.0 and [r["id"] for r in g.newly_failing] == ["a"]
+
+
+@pytest.mark.parametrize("text,english", [
+    ("The harbour board met on Tuesday and approved a new pilot boat for the outer basin.", True),
+    ("Der Hafenrat trat am Dienstag zusammen und genehmigte ein neues Lotsenboot.", False),
+    ("港口委员会周二开会，批准了一艘新的引航船用于外港。", False),
+    ("Le conseil du port s'est réuni mardi et a approuvé un nouveau bateau pilote.", False),
+    ("Ilse Marrow chaired.", True),  # too short to judge
+])
+def test_language_check_on_invented_sentences(text, english):
+    from qacheck.language import looks_english
+
+    assert looks_english(text) is english
+
+
+def test_text_that_is_not_english_is_scored_with_a_warning(checker):
+    src = "Der Hafenrat trat am Dienstag zusammen und genehmigte ein neues Lotsenboot für Caldreth."
+    r = checker.check(src, "Der Hafenrat genehmigte am Dienstag ein neues Lotsenboot.")
+    assert len(r.warnings) == 2 and "English" in r.warnings[0]
+    assert r.to_dict()["warnings"] == r.warnings
+
+
+@pytest.mark.parametrize("name", ["qa", "qg"])
+def test_a_tampered_model_stops_a_warm_run_before_any_result_is_written(tmp_path, monkeypatch,
+                                                                        name):
+    """With every answer in the cache, no model would load; the files are checked anyway."""
+    from qacheck.models import lock
+
+    cache = tmp_path / "cache.sqlite"
+    args = ["run", str(PORT), "--outputs", "writer-v1", "--cache", str(cache)]
+    warm = CliRunner().invoke(main, args + ["--results", str(tmp_path / "first")])
+    assert warm.exit_code == 0, warm.output
+    genuine = lock.entry(name)
+    copy = tmp_path / "tampered"
+    shutil.copytree(genuine.folder, copy)
+    data = bytearray((copy / "model.safetensors").read_bytes())
+    data[len(data) // 2] ^= 0xFF
+    (copy / "model.safetensors").write_bytes(bytes(data))
+    real_entry = lock.entry
+    monkeypatch.setattr(lock, "entry", lambda n: (
+        lock.ModelEntry(n, copy, genuine.files, genuine.meta) if n == name else real_entry(n)))
+    res = CliRunner().invoke(main, args + ["--results", str(tmp_path / "second")])
+    assert res.exit_code == 2 and "refusing to load" in res.output, res.output
+    assert not (tmp_path / "second").exists()

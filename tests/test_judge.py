@@ -7,6 +7,7 @@ are qacheck's own and are pinned here on hand-built evidence.
 from __future__ import annotations
 
 import json
+from dataclasses import replace
 
 import numpy as np
 import pytest
@@ -16,8 +17,9 @@ from qacheck.results import PairResult, QuestionResult, SentenceResult
 
 SOURCE = "The Harl ferry leaves Caldreth at 9 am. It carries 40 cars."
 #: P(faithful) rises with the question scores and falls with novel words and unchecked sentences
-MODEL = SentenceModel(mean_=(0.5, 0.5, 0.2, 0.0, 0.0), scale_=(0.2, 0.2, 0.1, 1.0, 1.0),
-                      coef_=(1.0, 1.0, -3.0, -1.0, -1.0), intercept_=0.0, cut_=0.5,
+MODEL = SentenceModel(mean_=(0.5, 0.5, 0.2, 0.0, 0.0, 1 / 3, 1 / 3),
+                      scale_=(0.2, 0.2, 0.1, 1.0, 1.0, 0.2, 0.2),
+                      coef_=(1.0, 1.0, -3.0, -1.0, -1.0, 1.0, -1.0), intercept_=0.0, cut_=0.5,
                       conflict_precision_=0.8)
 
 
@@ -79,6 +81,19 @@ def test_sentence_without_questions_is_still_judged_by_its_words():
     assert s.evidence["unchecked"] == 1.0 and s.label == "unverifiable"
     assert r.unchecked_share == 1.0 and r.label == "inconsistent"
     assert "no question survived" in s.reason.text
+
+
+def test_the_entailment_reading_is_weighed_evidence():
+    from qacheck.results import ClaimResult
+
+    out = "The Harl ferry carries 40 cars."
+    base = SentenceResult(out, 0, len(out), None, "supported", [_q("supported", score=0.6)])
+    backed = judge(PairResult(None, "unscored", [replace(base, claim=ClaimResult(
+        0, 20, 0.95, 0.02, 0.03))], {}, {}, SOURCE, out), MODEL).sentences[0]
+    denied = judge(PairResult(None, "unscored", [replace(base, claim=ClaimResult(
+        0, 20, 0.02, 0.95, 0.03))], {}, {}, SOURCE, out), MODEL).sentences[0]
+    assert backed.evidence["claim_entailed"] == 0.95 and backed.score > denied.score
+    assert denied.reason.rule == "evidence"  # the reader labels nothing on its own
 
 
 def test_judge_returns_a_new_result():
@@ -146,3 +161,16 @@ def test_leave_one_file_out_generalises_on_separable_files():
     assert out["n_sentences"] == 60
     for held in out["leave_one_file_out"].values():
         assert held["roc_auc"] > 0.95 and held["balanced_accuracy"] > 0.9
+
+
+def test_retrieval_puts_the_window_that_holds_the_claim_first():
+    """BM25 (the rank_bm25 package) over stems: the window holding the claim's words ranks
+    first, and windows keep to whole sentences of the source."""
+    from qacheck.retrieval import WINDOW_WORDS, best_windows, windows
+
+    source = " ".join(f"Notice {i}: the library in Felwick holds story hour number {i}."
+                      for i in range(60)) + " The Tessaly ferry museum opens in May."
+    best = best_windows(source, "When does the ferry museum in Tessaly open?")[0]
+    assert "ferry museum opens in May" in best.text
+    assert all(len(w.text.split()) <= WINDOW_WORDS for w in windows(source))
+    assert all(source[w.start:w.end] == w.text for w in windows(source))

@@ -200,3 +200,31 @@ def test_tiny_qg_training_run_writes_a_model_that_generates(tmp_path):
     qg = QGModel(tmp_path / "qg" / "model", num_beams=2, max_new_tokens=8)
     [q] = qg.generate([("Its first manager was Ada Vell.", 22, 30)])
     assert not {"[SEP]", "[PAD]", "[CLS]"} & set(q.split())  # decoded without special tokens
+
+
+def test_n_best_span_search_finds_the_brute_force_best():
+    """The n-best start/end search (common SQuAD practice) against a search over every pair:
+    with n-best at least the context length they must agree exactly; at the default n-best
+    they agree on peaked logits, as the model's are."""
+    import numpy as np
+
+    rng = np.random.default_rng(5)
+    model = QAModel(verify=False)
+    for trial in range(200):
+        n = int(rng.integers(8, 60))
+        s, e = rng.normal(size=n), rng.normal(size=n)
+        if trial % 2:  # peaked, like a trained model's logits
+            i, j = sorted(rng.integers(1, n, size=2))
+            s[i] += 8
+            e[j] += 8
+        seq = [None] + [0] * 3 + [1] * (n - 5) + [None]
+        ctx = [k for k, sid in enumerate(seq) if sid == 1]
+        best = max(((s[a] + e[b], a, b) for a in ctx for b in ctx
+                    if a <= b and b - a + 1 <= model.max_answer_tokens), default=None)
+        model.n_best = n
+        got = model._best_span(s, e, seq)
+        assert (got[0], got[1], got[2]) == pytest.approx(best), trial
+        if trial % 2:
+            model.n_best = 20
+            got = model._best_span(s, e, seq)
+            assert (got[1], got[2]) == (best[1], best[2]), trial

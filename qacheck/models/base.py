@@ -19,8 +19,16 @@ class LockedModel:
     def __init__(self, folder: Path | None, verify: bool) -> None:
         self.folder = Path(folder) if folder else None
         self.verify = verify
+        self._verified = False
         self._model = None
         self._tok = None
+
+    def verify_files(self) -> None:
+        """Check the shipped files against models.lock now (once), before anything is written:
+        a tampered file must stop a run even when every answer would come from the cache."""
+        if self.folder is None and self.verify and not self._verified:
+            lock.entry(self.name).verify()
+            self._verified = True
 
     @property
     def digest(self) -> str:
@@ -35,7 +43,5 @@ class LockedModel:
         quiet_transformers()
         if self.folder is not None:
             return str(self.folder)
-        e = lock.entry(self.name)
-        if self.verify:
-            e.verify()
-        return str(e.folder)
+        self.verify_files()
+        return str(lock.entry(self.name).folder)

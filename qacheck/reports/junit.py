@@ -37,6 +37,7 @@ def render_junit(summary: dict[str, Any], records: list[dict[str, Any]]) -> str:
             ET.SubElement(tc, "error", message="; ".join(r["reasons"]))
         elif r["status"] == "unscored":
             ET.SubElement(tc, "skipped", message="; ".join(r["reasons"]))
-        ET.SubElement(tc, "system-out").text = f"score {score} label {r['label']}"
+        warnings = "".join(f"\nwarning: {w}" for w in (r.get("result") or {}).get("warnings", []))
+        ET.SubElement(tc, "system-out").text = f"score {score} label {r['label']}{warnings}"
     ET.indent(suite)
     return ET.tostring(suite, encoding="unicode", xml_declaration=True) + "\n"

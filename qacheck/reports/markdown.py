@@ -48,6 +48,10 @@ def render_run(summary: dict[str, Any], records: list[dict[str, Any]],
                     if v.suggestion:
                         out.append(f"  - fix: {_md(v.suggestion)}")
                 out.append("\n</details>\n")
+    warned = [r for r in records if (r.get("result") or {}).get("warnings")]
+    if warned:
+        out += ["### Warnings", ""] + [f"- {_md(r['id'])}: {_md(w)}" for r in warned
+                                       for w in r["result"]["warnings"]] + [""]
     if summary["problems"]:
         out += ["### Input problems", ""] + [f"- {_md(p)}" for p in summary["problems"]] + [""]
     out += [f"<sub>{summary['signature']['text']}. "

@@ -32,6 +32,8 @@ def render_pair(result: PairResult, console: Console, verbose: bool = False) -> 
                   f"{_fmt(result.score)} (flagged under {_fmt(cut)})  "
                   + "  ".join(f"{k}: {v}" for k, v in sorted(result.counts.items()))
                   + f"  unchecked: {result.unchecked_share:.0%}", highlight=False)
+    for w in result.warnings:
+        console.print(f"[bold yellow]warning:[/] {escape(w)}", highlight=False)
     for s in result.sentences:
         console.print(f"[{STYLE[s.label]}]{s.label:>12}[/] {_fmt(s.score)}  {escape(s.text)}",
                       highlight=False)
