@@ -70,6 +70,15 @@ def check_writable(path: str | None, what: str = "out") -> None:
         raise InputError("folder is not writable", path=folder, field=what)
 
 
+def _check_folder(folder: Path, what: str) -> None:
+    """A results folder must be creatable and writable; checked before any model loads."""
+    probe = folder
+    while not probe.exists() and probe.parent != probe:
+        probe = probe.parent
+    if not probe.is_dir() or not os.access(probe, os.W_OK):
+        raise InputError("not a writable folder", path=probe, field=what)
+
+
 def _write(text: str, out: str | None) -> None:
     """Write a report; if that fails, keep the computed result beside in a temporary file."""
     if not out:
@@ -154,8 +163,8 @@ def score(source, output, source_text, output_text, fmt, out, thr_file, verbose)
 @click.option("--allow-signature-mismatch", is_flag=True,
               help="Gate against a baseline scored under another signature anyway.")
 @click.option("--workers", default=1, show_default=True, help="Scoring processes.")
-@click.option("--batch-size", default=8, show_default=True,
-              help="Cases per model batch (results are saved after each batch).")
+@click.option("--batch-size", default=1, show_default=True,
+              help="Cases per model batch; each batch's results are on disk as it finishes.")
 @click.option("--cache", "cache_path", type=click.Path(dir_okay=False),
               help="Result cache file [default: $QACHECK_CACHE or ~/.cache/qacheck].")
 @click.option("--no-cache", is_flag=True, help="Do not read or write the result cache.")
@@ -168,7 +177,7 @@ def run(set_dir, outputs, results_dir, baseline, tolerance, allow_signature_mism
     """
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
 
-    from qacheck.cache import ResultCache
+    from qacheck.cache import ResultCache, default_path
     from qacheck.config import Thresholds
     from qacheck.reports.markdown import render_run
     from qacheck.reports.run import write_run_reports
@@ -180,6 +189,12 @@ def run(set_dir, outputs, results_dir, baseline, tolerance, allow_signature_mism
         err.print(f"[yellow]input problem:[/] {p}", highlight=False)
     thr = Thresholds.shipped().merged(sset.thresholds, origin=str(Path(set_dir) / "set.toml"))
     folder = Path(results_dir or Path("results") / f"{Path(set_dir).name}-{sset.outputs_name}")
+    _check_folder(folder, "results")
+    if not no_cache:
+        cache_file = Path(cache_path) if cache_path else default_path()
+        _check_folder(cache_file.parent, "cache")
+        if cache_file.exists() and not os.access(cache_file, os.W_OK):
+            raise InputError("cache file is not writable", path=cache_file, field="cache")
     cache = None if no_cache else ResultCache(Path(cache_path) if cache_path else None)
     scorer = Scorer(thr, cache, workers=workers, batch_size=batch_size)
     columns = (TextColumn("[progress.description]{task.description}"), BarColumn(),
@@ -226,6 +241,7 @@ def compare(a, b, set_dir, fmt, out, seed, resamples, top, allow_signature_misma
     from qacheck.reports import version_diff as render_versions
     from qacheck.version_diff import compare_runs
 
+    check_writable(out)
     if set_dir:
         a, b = (str(_score_outputs(set_dir, x)) for x in (a, b))
     c = compare_runs(Path(a), Path(b), resamples=resamples, seed=seed, top=top,
@@ -276,7 +292,8 @@ def agreement(files, limit, seed, as_json, fit, no_cosine, cache_path) -> None:
     from qacheck.config import Thresholds
     from qacheck.runner import Scorer
 
-    scorer = Scorer(Thresholds.shipped(), ResultCache(Path(cache_path) if cache_path else None))
+    scorer = Scorer(Thresholds.shipped(), ResultCache(Path(cache_path) if cache_path else None),
+                    batch_size=8)
     with Progress(console=err, transient=True) as prog:
         tasks: dict[str, int] = {}
 

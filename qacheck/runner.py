@@ -81,7 +81,7 @@ class Scorer:
     """
 
     def __init__(self, thresholds: Thresholds, cache: ResultCache | None, workers: int = 1,
-                 batch_size: int = 8, checker=None) -> None:
+                 batch_size: int = 1, checker=None) -> None:
         from qacheck.pipeline import Checker
 
         self.thresholds = thresholds

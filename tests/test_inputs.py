@@ -215,3 +215,20 @@ def test_a_tampered_model_stops_a_warm_run_before_any_result_is_written(tmp_path
     res = CliRunner().invoke(main, args + ["--results", str(tmp_path / "second")])
     assert res.exit_code == 2 and "refusing to load" in res.output, res.output
     assert not (tmp_path / "second").exists()
+
+
+@pytest.mark.parametrize("option", ["--results", "--cache"])
+def test_unwritable_output_paths_are_refused_before_scoring(tmp_path, option):
+    """A path under a plain file can be written by nobody, root included (as CI runs)."""
+    blocker = tmp_path / "a-file"
+    blocker.write_text("not a folder")
+    target = blocker / ("out" if option == "--results" else "cache.sqlite")
+    res = CliRunner().invoke(main, ["run", str(PORT), "--outputs", "writer-v1", option, str(target)])
+    assert res.exit_code == 2 and "not a writable folder" in res.output and "a-file" in res.output
+    assert "Traceback" not in res.output
+
+
+def test_compare_into_a_missing_folder_is_refused_first(tmp_path):
+    res = CliRunner().invoke(main, ["compare", "writer-v1", "writer-v2", "--set", str(PORT),
+                                    "--out", str(tmp_path / "missing" / "c.html")])
+    assert res.exit_code == 2 and "does not exist" in res.output
