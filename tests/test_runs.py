@@ -219,3 +219,23 @@ def test_failure_reason_names_each_flagged_sentence_and_its_rule():
     assert bad == ("fail", ['label inconsistent: contradicted "Calls rose to 517." '
                             '(a different value: the source says 412)'])
     assert ok == ("pass", [])
+
+
+def test_a_second_run_into_the_same_folder_is_refused_while_the_first_runs(tmp_path):
+    """Two real processes: the second is refused with the first's process id; the first's
+    results are complete and its own."""
+    env = {**os.environ, "QACHECK_CACHE": str(tmp_path / "unused.sqlite")}
+    out = tmp_path / "shared-out"
+    args = [*QACHECK, "run", str(PORT), "--outputs", "writer-v1", "--no-cache",
+            "--results", str(out)]
+    first = subprocess.Popen(args, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE,
+                             text=True)
+    lock = out / ".lock"
+    deadline = time.time() + 300
+    while time.time() < deadline and not (lock.exists() and lock.read_text().strip()):
+        time.sleep(0.05)
+    second = subprocess.run(args, env=env, capture_output=True, text=True, timeout=600)
+    assert first.wait(timeout=600) == 0, first.stderr.read()
+    assert second.returncode == 2 and f"pid {first.pid}" in second.stderr, second.stderr
+    results = [json.loads(x) for x in (out / "results.jsonl").read_text().splitlines()]
+    assert len(results) == len({r["id"] for r in results}) == 8
