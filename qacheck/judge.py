@@ -72,13 +72,15 @@ def question_outcome(agreement: float, conflict: str | None, no_answer_prob: flo
     return "contradicted", score
 
 
-def sentence_features(sentence: SentenceResult, source: str) -> dict[str, float]:
+def sentence_features(sentence: SentenceResult, source: str,
+                      novel: tuple[list[str], int] | None = None) -> dict[str, float]:
     """The sentence model's inputs for one sentence, by name.
 
-    A sentence without a reading (no entailment reader installed) gets the
-    reader's uninformed values, a third for each class.
+    ``novel`` is ``novel_words(sentence.text, source)`` when the caller has
+    it already.  A sentence without a reading (no entailment reader
+    installed) gets the reader's uninformed values, a third for each class.
     """
-    novel, n_content = novel_words(sentence.text, source)
+    novel, n_content = novel or novel_words(sentence.text, source)
     share = len(novel) / n_content if n_content else 0.0
     c = sentence.claim
     claim = {"claim_entailed": c.entailed if c else 1 / 3,
@@ -203,8 +205,9 @@ def judge_sentence(s: SentenceResult, source: str, model: SentenceModel,
     at P >= 0.9") it was right on 3 of 12 development sentences, so it labels
     nothing on its own.
     """
-    feats = sentence_features(s, source)
-    novel = novel_words(s.text, source)[0]
+    found = novel_words(s.text, source)
+    feats = sentence_features(s, source, found)
+    novel = found[0]
     p = model.predict_proba(feats)
     cut = max(model.cut_, thr.sentence_floor)
     hit = _first_conflict(s.questions)
