@@ -1,7 +1,7 @@
 """The claim-vs-evidence reader: (evidence, claim) -> P(entailed), P(contradicted), P(not supported).
 
 One narrow interface, ``NLIModel.read(pairs)``, batched; every forward pass
-has the same shape for a given padded width (as in ``qacheck.models.qa``), so
+has the same shape for a given padded width (``runtime.fixed_shape_batches``), so
 a claim's probabilities never depend on what else is in the batch.
 """
 from __future__ import annotations
@@ -12,12 +12,10 @@ from pathlib import Path
 import torch
 
 from qacheck.models.base import LockedModel
-from qacheck.models.runtime import autocast, cpu_has_bf16
+from qacheck.models.runtime import PAD_MULTIPLE, ROWS, autocast, cpu_has_bf16, fixed_shape_batches
 
 #: the evidence window plus the claim are cut to this many word pieces (evidence first)
 MAX_TOKENS = 256
-PAD_MULTIPLE = 32
-ROWS = 16
 
 
 @dataclass(frozen=True)
@@ -69,27 +67,10 @@ class NLIModel(LockedModel):
         tok = self._tok
         enc = tok([e for e, _ in pairs], [c for _, c in pairs], truncation="only_first",
                   max_length=MAX_TOKENS)
-        padded = [-(-len(ids) // PAD_MULTIPLE) * PAD_MULTIPLE for ids in enc["input_ids"]]
-        by_width: dict[int, list[int]] = {}
-        for i in sorted(range(len(pairs)), key=lambda i: (padded[i], i)):
-            by_width.setdefault(padded[i], []).append(i)
         probs: list[list[float] | None] = [None] * len(pairs)
         with torch.inference_mode(), autocast(self.bf16):
-            for width, items in by_width.items():
-                for b in range(0, len(items), ROWS):
-                    idx = items[b:b + ROWS]
-                    ids = torch.full((ROWS, width), tok.pad_token_id, dtype=torch.long)
-                    tt = torch.zeros((ROWS, width), dtype=torch.long)
-                    mask = torch.zeros((ROWS, width), dtype=torch.long)
-                    mask[len(idx):, 0] = 1
-                    for r, i in enumerate(idx):
-                        n = len(enc["input_ids"][i])
-                        ids[r, :n] = torch.tensor(enc["input_ids"][i])
-                        tt[r, :n] = torch.tensor(enc["token_type_ids"][i])
-                        mask[r, :n] = 1
-                    logits = self._model(input_ids=ids, token_type_ids=tt,
-                                         attention_mask=mask).logits.float()
-                    p = torch.softmax(logits, dim=-1).numpy()
-                    for r, i in enumerate(idx):
-                        probs[i] = [float(x) for x in p[r]]
+            for idx, batch in fixed_shape_batches(enc, tok.pad_token_id):
+                p = torch.softmax(self._model(**batch).logits.float(), dim=-1).numpy()
+                for r, i in enumerate(idx):
+                    probs[i] = [float(x) for x in p[r]]
         return [Reading(*p) for p in probs]

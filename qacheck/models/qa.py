@@ -16,7 +16,7 @@ import numpy as np
 import torch
 
 from qacheck.models.base import LockedModel
-from qacheck.models.runtime import autocast, cpu_has_bf16
+from qacheck.models.runtime import PAD_MULTIPLE, ROWS, autocast, cpu_has_bf16, fixed_shape_batches
 
 
 @dataclass(frozen=True)
@@ -41,12 +41,6 @@ class Answer:
 #: questions are cut to this many word pieces; a window must hold the question and more than
 #: its stride of context (an in-situ question from a run-on sentence can be very long)
 QUESTION_TOKENS = 96
-#: windows are padded to a multiple of this many tokens, batched only with windows of the same
-#: padded width, and every forward pass holds exactly ``ROWS`` windows (empty rows fill the
-#: last), so each matrix product has the same shape whatever else is scored: a window's
-#: numbers never depend on the batch it lands in (bf16 kernels pick their blocking by shape)
-PAD_MULTIPLE = 32
-ROWS = 16
 
 
 def clip_questions(tok, questions: list[str], max_tokens: int = QUESTION_TOKENS) -> list[str]:
@@ -96,27 +90,11 @@ class QAModel(LockedModel):
                   max_length=self.max_len, stride=self.stride, return_overflowing_tokens=True,
                   return_offsets_mapping=True)
         n_win = len(enc["input_ids"])
-        padded = [-(-len(ids) // PAD_MULTIPLE) * PAD_MULTIPLE for ids in enc["input_ids"]]
-        order = sorted(range(n_win), key=lambda w: (padded[w], w))
-        by_width: dict[int, list[int]] = {}
-        for w in order:
-            by_width.setdefault(padded[w], []).append(w)
-        batches = [ws[b:b + ROWS] for ws in by_width.values() for b in range(0, len(ws), ROWS)]
         start_logits: list[np.ndarray | None] = [None] * n_win
         end_logits: list[np.ndarray | None] = [None] * n_win
         with torch.inference_mode(), autocast(self.bf16):
-            for idx in batches:
-                width = padded[idx[0]]
-                ids = torch.full((ROWS, width), tok.pad_token_id, dtype=torch.long)
-                tt = torch.zeros((ROWS, width), dtype=torch.long)
-                mask = torch.zeros((ROWS, width), dtype=torch.long)
-                mask[len(idx):, 0] = 1  # an empty row attends to its first token only
-                for r, w in enumerate(idx):
-                    n = len(enc["input_ids"][w])
-                    ids[r, :n] = torch.tensor(enc["input_ids"][w])
-                    tt[r, :n] = torch.tensor(enc["token_type_ids"][w])
-                    mask[r, :n] = 1
-                out = self._model(input_ids=ids, token_type_ids=tt, attention_mask=mask)
+            for idx, batch in fixed_shape_batches(enc, tok.pad_token_id):
+                out = self._model(**batch)
                 s = out.start_logits.float().numpy()
                 e = out.end_logits.float().numpy()
                 for r, w in enumerate(idx):

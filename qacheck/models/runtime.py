@@ -34,3 +34,36 @@ def quiet_transformers() -> None:
 
     hf_logging.set_verbosity_error()
     hf_logging.disable_progress_bar()
+
+
+#: windows are padded to a multiple of this many tokens, batched only with windows of the same
+#: padded width, and every forward pass holds exactly ``ROWS`` windows (empty rows fill the
+#: last), so each matrix product has the same shape whatever else is scored: a window's
+#: numbers never depend on the batch it lands in (bf16 kernels pick their blocking by shape)
+PAD_MULTIPLE = 32
+ROWS = 16
+
+
+def fixed_shape_batches(enc, pad_id: int):
+    """Yield (indices, model inputs) over tokenised windows, every batch ``ROWS`` x a padded width.
+
+    ``enc`` holds ``input_ids`` and ``token_type_ids`` per window; ``indices``
+    are the windows in the batch, in order of its first rows.
+    """
+    padded = [-(-len(ids) // PAD_MULTIPLE) * PAD_MULTIPLE for ids in enc["input_ids"]]
+    by_width: dict[int, list[int]] = {}
+    for w in sorted(range(len(padded)), key=lambda w: (padded[w], w)):
+        by_width.setdefault(padded[w], []).append(w)
+    for width, items in by_width.items():
+        for b in range(0, len(items), ROWS):
+            idx = items[b:b + ROWS]
+            ids = torch.full((ROWS, width), pad_id, dtype=torch.long)
+            tt = torch.zeros((ROWS, width), dtype=torch.long)
+            mask = torch.zeros((ROWS, width), dtype=torch.long)
+            mask[len(idx):, 0] = 1  # an empty row attends to its first token only
+            for r, w in enumerate(idx):
+                n = len(enc["input_ids"][w])
+                ids[r, :n] = torch.tensor(enc["input_ids"][w])
+                tt[r, :n] = torch.tensor(enc["token_type_ids"][w])
+                mask[r, :n] = 1
+            yield idx, {"input_ids": ids, "token_type_ids": tt, "attention_mask": mask}
