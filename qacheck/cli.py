@@ -96,22 +96,86 @@ def _write(text: str, out: str | None) -> None:
                          path=out, field="out") from exc
 
 
+#: what each checker stage is doing, in words, for the progress line of ``score``
+STAGE_WORDS = {"segment": "splitting sentences, finding answer spans",
+               "draft_rules": "drafting questions", "qa_output": "round trip on the output",
+               "draft_seq2seq": "drafting questions (seq2seq)",
+               "retrieve": "finding source passages", "qa_source": "answering on the source",
+               "claims": "reading sentences as claims", "judge": "judging"}
+
+
+#: file suffix of each report format
+SUFFIX = {"text": ".txt", "json": ".json", "markdown": ".md", "html": ".html"}
+
+
+def format_options(allowed: tuple[str, ...]):
+    """``--format`` (one or several, comma-separated), ``--json`` and ``--out``, one grammar
+    for every command that renders a report."""
+    def wrap(f):
+        for opt in reversed([
+            click.option("--format", "fmt", default="text", show_default=True,
+                         help=f"One or several of {', '.join(allowed)}, comma-separated "
+                              "(e.g. json,html): every format from one scoring."),
+            click.option("--json", "as_json", is_flag=True, help="Shorthand for --format json."),
+            click.option("--out", type=click.Path(dir_okay=False),
+                         help="Write the report here; with several formats, a path whose "
+                              "suffix each format replaces (report -> report.json, "
+                              "report.html)."),
+        ]):
+            f = opt(f)
+        return f
+    return wrap
+
+
+def report_targets(fmt: str, as_json: bool, out: str | None,
+                   allowed: tuple[str, ...]) -> dict[str, str | None]:
+    """Each requested format and where it goes (None: standard output), checked before any
+    work: unknown formats are usage errors and every target folder must be writable."""
+    formats = ["json"] if as_json else [f.strip() for f in fmt.split(",") if f.strip()]
+    unknown = [f for f in formats if f not in allowed]
+    if unknown or not formats:
+        raise click.UsageError(f"--format: {', '.join(unknown) or 'nothing given'} is not one of "
+                               f"{', '.join(allowed)}")
+    formats = list(dict.fromkeys(formats))
+    if len(formats) == 1:
+        targets = {formats[0]: out}
+    elif not out:
+        raise click.UsageError("several formats need --out (a path whose suffix each replaces)")
+    else:
+        stem = Path(out)
+        stem = stem.with_suffix("") if stem.suffix in SUFFIX.values() else stem
+        targets = {f: str(stem) + SUFFIX[f] for f in formats}
+    for path in targets.values():
+        check_writable(path)
+    return targets
+
+
+def _render_pair_text(result, verbose: bool, width: int | None = None) -> str:
+    import io
+
+    from qacheck.reports.text import render_pair
+
+    buf = io.StringIO()
+    render_pair(result, Console(file=buf, width=width or 100, no_color=True), verbose)
+    return buf.getvalue()
+
+
 @main.command()
 @click.argument("source", required=False)
 @click.argument("output", required=False)
 @click.option("--source-text", help="The source as a string instead of a file.")
 @click.option("--output-text", help="The output as a string instead of a file.")
-@click.option("--format", "fmt", type=click.Choice(["text", "json", "html"]), default="text",
-              show_default=True)
-@click.option("--out", type=click.Path(dir_okay=False), help="Write the report here.")
+@format_options(("text", "json", "html"))
 @click.option("--thresholds", "thr_file", type=click.Path(dir_okay=False),
               help="JSON file overriding shipped thresholds.")
 @click.option("--verbose", is_flag=True,
               help="Show the questions and reasons of supported sentences too.")
-def score(source, output, source_text, output_text, fmt, out, thr_file, verbose) -> None:
+@click.option("--cache", "cache_path", type=click.Path(dir_okay=False),
+              help="Result cache file [default: $QACHECK_CACHE or ~/.cache/qacheck].")
+@click.option("--no-cache", is_flag=True, help="Do not read or write the result cache.")
+def score(source, output, source_text, output_text, fmt, as_json, out, thr_file, verbose,
+          cache_path, no_cache) -> None:
     """Score one OUTPUT against its SOURCE (paths; '-' reads stdin)."""
-    from qacheck.pipeline import Checker, read_text
-
     if source_text is None and source is None:
         raise click.UsageError("give SOURCE or --source-text")
     if source_text is not None and output_text is not None and source is not None:
@@ -124,30 +188,48 @@ def score(source, output, source_text, output_text, fmt, out, thr_file, verbose)
             output, source = source, None
         if output is None:
             raise click.UsageError("give OUTPUT or --output-text")
-    check_writable(out)
+    targets = report_targets(fmt, as_json, out, ("text", "json", "html"))
+    cache = _open_cache(cache_path, no_cache)
+    from qacheck.pipeline import read_text
+    from qacheck.results import PairResult
+    from qacheck.runner import Scorer
+
     src = source_text if source_text is not None else read_text(source, "source")
     outp = output_text if output_text is not None else read_text(output, "output")
     for name, text in (("source", src), ("output", outp)):
         if not text.strip():
             raise InputError("empty text", field=name)
-    result = Checker(thresholds=_thresholds(thr_file)).check(src, outp)
-    if fmt == "json":
-        _write(json.dumps(result.to_dict(), indent=2, ensure_ascii=False), out)
-    elif fmt == "html":
-        from qacheck.reports.html import render
+    scorer = Scorer(_thresholds(thr_file), cache)
+    with err.status("loading models", spinner="line") as status:  # shown on terminals only
+        scorer.checker.on_stage = lambda name: status.update(STAGE_WORDS.get(name, name))
+        result = PairResult.from_dict(next(scorer.score([(src, outp)]))[1])
+    for f, path in targets.items():
+        if f == "json":
+            _write(json.dumps(result.to_dict(), indent=2, ensure_ascii=False), path)
+        elif f == "html":
+            from qacheck.reports.html import cut_of, render
 
-        _write(render("pair.html.j2", title="qacheck report", pair=result, verbose=verbose), out)
-    else:
-        from qacheck.reports.text import render_pair
-
-        if out:
-            import io
-
-            buf = io.StringIO()
-            render_pair(result, Console(file=buf, width=120, no_color=True), verbose)
-            _write(buf.getvalue(), out)
+            _write(render("pair.html.j2", title="qacheck report", pair=result, verbose=verbose,
+                          cut=cut_of(result)), path)
+        elif path:
+            _write(_render_pair_text(result, verbose, 120), path)
         else:
+            from qacheck.reports.text import render_pair
+
             render_pair(result, Console(), verbose)
+
+
+def _open_cache(cache_path: str | None, no_cache: bool):
+    """The result cache (checked writable before any model loads), or None with --no-cache."""
+    if no_cache:
+        return None
+    from qacheck.cache import ResultCache, default_path
+
+    cache_file = Path(cache_path) if cache_path else default_path()
+    _check_folder(cache_file.parent, "cache")
+    if cache_file.exists() and not os.access(cache_file, os.W_OK):
+        raise InputError("cache file is not writable", path=cache_file, field="cache")
+    return ResultCache(cache_file)
 
 
 # --- nightly runs ---------------------------------------------------------------------
@@ -177,30 +259,22 @@ def run(set_dir, outputs, results_dir, baseline, tolerance, allow_signature_mism
     """
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
 
-    from qacheck.cache import ResultCache, default_path
     from qacheck.config import Thresholds
-    from qacheck.reports.markdown import render_run
     from qacheck.reports.run import write_run_reports
     from qacheck.runner import Scorer, gate, run_set
     from qacheck.scenarios import load_set
 
     sset = load_set(set_dir, outputs)
     for p in sset.problems:
-        err.print(f"[yellow]input problem:[/] {p}", highlight=False)
+        err.print(f"[yellow]input problem:[/] {p}", highlight=False, soft_wrap=True)
     thr = Thresholds.shipped().merged(sset.thresholds, origin=str(Path(set_dir) / "set.toml"))
     folder = Path(results_dir or Path("results") / f"{Path(set_dir).name}-{sset.outputs_name}")
     _check_folder(folder, "results")
-    if not no_cache:
-        cache_file = Path(cache_path) if cache_path else default_path()
-        _check_folder(cache_file.parent, "cache")
-        if cache_file.exists() and not os.access(cache_file, os.W_OK):
-            raise InputError("cache file is not writable", path=cache_file, field="cache")
-    cache = None if no_cache else ResultCache(Path(cache_path) if cache_path else None)
-    scorer = Scorer(thr, cache, workers=workers, batch_size=batch_size)
+    scorer = Scorer(thr, _open_cache(cache_path, no_cache), workers=workers, batch_size=batch_size)
     columns = (TextColumn("[progress.description]{task.description}"), BarColumn(),
                MofNCompleteColumn(), TimeRemainingColumn())
     try:
-        with Progress(*columns, console=err, transient=False) as prog:
+        with Progress(*columns, console=err, transient=False, disable=not err.is_terminal) as prog:
             task = prog.add_task(f"scoring {sset.name}", total=len(sset.cases))
             outcome = run_set(sset, folder, scorer,
                               progress=lambda d, t: prog.update(task, completed=d, total=t))
@@ -215,9 +289,11 @@ def run(set_dir, outputs, results_dir, baseline, tolerance, allow_signature_mism
         messages, gate_ok = g.messages, g.ok
         if g.signature_mismatch:
             err.print(f"[bold red]WARNING: {messages[0]}[/]", highlight=False)
-    write_run_reports(folder, outcome.summary, outcome.records, messages)
-    click.echo(render_run(outcome.summary, outcome.records, messages))
-    click.echo(f"results: {folder}")
+    write_run_reports(folder, outcome.summary, outcome.records, messages if baseline else None)
+    from qacheck.reports.text import render_run
+
+    render_run(outcome.summary, outcome.records, messages, gate_ok if baseline else None,
+               str(folder), Console())
     failed = outcome.summary["status"].get("fail", 0) + outcome.summary["status"].get("error", 0)
     if sset.problems:
         sys.exit(2)
@@ -229,32 +305,30 @@ def run(set_dir, outputs, results_dir, baseline, tolerance, allow_signature_mism
 @click.argument("b")
 @click.option("--set", "set_dir", type=click.Path(exists=True, file_okay=False),
               help="Score A and B (outputs files) on this set first, instead of reading results folders.")
-@click.option("--format", "fmt", type=click.Choice(["text", "json", "markdown", "html"]),
-              default="text", show_default=True)
-@click.option("--out", type=click.Path(dir_okay=False))
+@format_options(("text", "json", "markdown", "html"))
 @click.option("--seed", default=0, show_default=True, help="Seed of the resampling tests.")
-@click.option("--resamples", default=10_000, show_default=True)
+@click.option("--resamples", default=10_000, show_default=True,
+              help="Resamples of the paired bootstrap and permutation tests.")
 @click.option("--top", default=5, show_default=True, help="How many regressions and improvements to show.")
-@click.option("--allow-signature-mismatch", is_flag=True)
-def compare(a, b, set_dir, fmt, out, seed, resamples, top, allow_signature_mismatch) -> None:
+@click.option("--allow-signature-mismatch", is_flag=True,
+              help="Compare results scored under different signatures anyway.")
+def compare(a, b, set_dir, fmt, as_json, out, seed, resamples, top,
+            allow_signature_mismatch) -> None:
     """Compare generator versions A and B (results folders of `qacheck run`) with paired statistics."""
+    targets = report_targets(fmt, as_json, out, ("text", "json", "markdown", "html"))
     from qacheck.reports import version_diff as render_versions
     from qacheck.version_diff import compare_runs
 
-    check_writable(out)
     if set_dir:
         a, b = (str(_score_outputs(set_dir, x)) for x in (a, b))
     c = compare_runs(Path(a), Path(b), resamples=resamples, seed=seed, top=top,
                      allow_mismatch=allow_signature_mismatch)
-    if fmt == "json":
-        text = json.dumps(c.as_dict(), indent=2, ensure_ascii=False)
-    elif fmt == "markdown":
-        text = render_versions.render_markdown(c)
-    elif fmt == "html":
-        text = render_versions.render_html(c)
-    else:
-        text = render_versions.render_text(c)
-    _write(text, out)
+    render = {"json": lambda: json.dumps(c.as_dict(), indent=2, ensure_ascii=False),
+              "markdown": lambda: render_versions.render_markdown(c),
+              "html": lambda: render_versions.render_html(c),
+              "text": lambda: render_versions.render_text(c)}
+    for f, path in targets.items():
+        _write(render[f](), path)
 
 
 def _score_outputs(set_dir: str, outputs: str) -> Path:
@@ -277,14 +351,16 @@ def _score_outputs(set_dir: str, outputs: str) -> Path:
 @click.argument("files", nargs=-1, required=True, type=click.Path(exists=True, dir_okay=False))
 @click.option("--limit", type=int, help="A fixed random sample of N records per file.")
 @click.option("--seed", default=0, show_default=True, help="Seed of the sample.")
-@click.option("--json", "as_json", is_flag=True)
+@format_options(("text", "json"))
 @click.option("--fit", is_flag=True,
               help="Fit the sentence model and its cut on these files (leave-one-file-out "
                    "figures reported) and ship them.")
 @click.option("--no-cosine", is_flag=True, help="Skip the MiniLM cosine baseline.")
-@click.option("--cache", "cache_path", type=click.Path(dir_okay=False))
-def agreement(files, limit, seed, as_json, fit, no_cosine, cache_path) -> None:
+@click.option("--cache", "cache_path", type=click.Path(dir_okay=False),
+              help="Result cache file [default: $QACHECK_CACHE or ~/.cache/qacheck].")
+def agreement(files, limit, seed, fmt, as_json, out, fit, no_cosine, cache_path) -> None:
     """Agreement with human faithfulness judgements (ROC AUC, balanced accuracy, sentences)."""
+    targets = report_targets(fmt, as_json, out, ("text", "json"))
     from rich.progress import Progress
 
     from qacheck.human_agreement import fit_judge_model, rejudged_figures, run_agreement
@@ -292,8 +368,18 @@ def agreement(files, limit, seed, as_json, fit, no_cosine, cache_path) -> None:
     from qacheck.config import Thresholds
     from qacheck.runner import Scorer
 
-    scorer = Scorer(Thresholds.shipped(), ResultCache(Path(cache_path) if cache_path else None),
-                    batch_size=8)
+    from qacheck.judge import SentenceModel
+    from qacheck.pipeline import Checker
+
+    try:
+        model = SentenceModel.shipped()
+    except ValueError as exc:  # the feature set changed: only a fit can make a new model
+        if not fit:
+            raise InputError(f"{exc}; refit it with --fit", path="qacheck/judge_model.json")
+        model = SentenceModel.untrained()
+    cache = ResultCache(Path(cache_path) if cache_path else None)
+    checker = Checker(Thresholds.shipped(), model=model, store=cache)
+    scorer = Scorer(Thresholds.shipped(), cache, batch_size=8, checker=checker)
     with Progress(console=err, transient=True) as prog:
         tasks: dict[str, int] = {}
 
@@ -311,12 +397,23 @@ def agreement(files, limit, seed, as_json, fit, no_cosine, cache_path) -> None:
         fitted["in_sample"] = rejudged_figures(raw, fitted["model"])
         fitted["model"] = fitted["model"].as_dict()
         res["fit"] = fitted
-    if as_json:
-        click.echo(json.dumps(res, indent=2))
-        return
-    from qacheck.reports.human_agreement import render_agreement
+        if model == SentenceModel.untrained():  # the figures above judged every sentence 0.5
+            res["files"] = fitted["in_sample"]
+            res.pop("overall")
+    for f, path in targets.items():
+        if f == "json":
+            _write(json.dumps(res, indent=2), path)
+            continue
+        from qacheck.reports.human_agreement import render_agreement
 
-    render_agreement(res, Console())
+        if path:
+            import io
+
+            buf = io.StringIO()
+            render_agreement(res, Console(file=buf, width=120, no_color=True))
+            _write(buf.getvalue(), path)
+        else:
+            render_agreement(res, Console())
 
 
 def _ship_judge_model(fitted: dict, files, limit, seed, scored_under: str) -> None:
@@ -363,8 +460,20 @@ def models_list() -> None:
         for key in ("base_model", "base_package", "license", "attribution"):
             if key in m:
                 con.print(f"  {key}: {m[key]}")
-        if "evaluation" in m:
-            con.print(f"  evaluation: {json.dumps(m['evaluation'])}")
+        for key, value in sorted((m.get("evaluation") or {}).items()):
+            con.print(f"  evaluation, {key}: {_figure_text(value)}", highlight=False)
+
+
+def _figure_text(value) -> str:
+    """A recorded figure as words: numbers to four digits, one level of nesting, no examples."""
+    if isinstance(value, float):
+        return f"{value:.4g}"
+    if isinstance(value, dict):
+        return ", ".join(f"{k} {_figure_text(v)}" for k, v in value.items()
+                         if k != "examples" and not isinstance(v, (dict, list)))
+    if isinstance(value, list):
+        return f"{len(value)} entries (see models.lock)"
+    return str(value)
 
 
 @models.command("verify")
@@ -397,25 +506,26 @@ def _eval_options(data_help: str, unit: str):
             click.option("--limit", type=int, help=f"Evaluate a fixed random sample of N {unit}."),
             click.option("--model", "model_dir", type=click.Path(exists=True, file_okay=False),
                          help="A model folder instead of the shipped model."),
-            click.option("--json", "as_json", is_flag=True, help="Print JSON."),
         ]):
             f = opt(f)
-        return f
+        return format_options(("text", "json"))(f)
     return wrap
 
 
-def _print_figures(res: dict, as_json: bool, digits: int) -> None:
-    click.echo(json.dumps(res, indent=2) if as_json else
+def _print_figures(res: dict, targets: dict[str, str | None], digits: int) -> None:
+    for f, path in targets.items():
+        _write(json.dumps(res, indent=2) if f == "json" else
                "\n".join(f"{k}: {v:.{digits}f}" if isinstance(v, float) else f"{k}: {v}"
-                         for k, v in res.items() if k != "examples"))
+                          for k, v in res.items() if k != "examples"), path)
 
 
 @models_eval.command("qa")
 @_eval_options("SQuAD JSON (v1.1/v2.0) or JSONL records.", "questions")
 @click.option("--heldout-seed", type=int,
               help="Evaluate the held-out titles (with constructed unanswerables) of a training file.")
-def eval_qa_cmd(data, limit, heldout_seed, model_dir, as_json) -> None:
+def eval_qa_cmd(data, limit, heldout_seed, model_dir, fmt, as_json, out) -> None:
     """Exact match and F1 by the official SQuAD v1.1 rules (+ no-answer figures)."""
+    targets = report_targets(fmt, as_json, out, ("text", "json"))
     from rich.progress import Progress
 
     from qacheck.evaluate import eval_qa
@@ -426,31 +536,33 @@ def eval_qa_cmd(data, limit, heldout_seed, model_dir, as_json) -> None:
         task = prog.add_task("answering", total=None)
         res = eval_qa(Path(data), limit, qa, heldout_seed,
                       progress=lambda d, t: prog.update(task, completed=d, total=t))
-    _print_figures(res, as_json, 2)
+    _print_figures(res, targets, 2)
 
 
 @models_eval.command("qg")
 @_eval_options("SQuAD JSON (v1.1/v2.0) or JSONL records.", "answers")
-def eval_qg_cmd(data, limit, model_dir, as_json) -> None:
+def eval_qg_cmd(data, limit, model_dir, fmt, as_json, out) -> None:
     """Round-trip answerability, BLEU-4 and ROUGE-L of drafted questions."""
+    targets = report_targets(fmt, as_json, out, ("text", "json"))
     from qacheck.evaluate import eval_qg
     from qacheck.models.qg import QGModel
 
     res = eval_qg(Path(data), limit, qg=QGModel(Path(model_dir)) if model_dir else None)
-    _print_figures(res, as_json, 3)
+    _print_figures(res, targets, 3)
 
 
 @models_eval.command("nli")
 @_eval_options("One JSON Lines file of entailment pairs (premise, hypothesis, label).", "pairs")
 @click.option("--heldout", is_flag=True,
               help="Only the pairs whose premise the trainer held out.")
-def eval_nli_cmd(data, limit, heldout, model_dir, as_json) -> None:
+def eval_nli_cmd(data, limit, heldout, model_dir, fmt, as_json, out) -> None:
     """Accuracy, balanced accuracy and per-class recall of the entailment reader."""
+    targets = report_targets(fmt, as_json, out, ("text", "json"))
     from qacheck.evaluate import eval_nli
     from qacheck.models.nli import NLIModel
 
     res = eval_nli(Path(data), limit, NLIModel(Path(model_dir)) if model_dir else None, heldout)
-    _print_figures(res, as_json, 3)
+    _print_figures(res, targets, 3)
 
 
 @models.command("lock")
@@ -526,11 +638,17 @@ def train_qg_cmd(max_novel, **opts) -> None:
               help="QA training file whose paragraphs give built claim pairs.")
 @click.option("--synthetic", default=15_000, show_default=True,
               help="How many paragraphs to build claims from (0: none).")
-def train_nli_cmd(qa_data, synthetic, **opts) -> None:
+@click.option("--contrast", default=0, show_default=True,
+              help="How many paragraphs give minimal pairs (antonym, reversed comparison, "
+                   "swapped names, negation) beside their unchanged sentence.")
+@click.option("--file-cap", default=12_000, show_default=True,
+              help="At most this many training pairs from one entailment file.")
+def train_nli_cmd(qa_data, synthetic, contrast, file_cap, **opts) -> None:
     """Train the claim-vs-evidence reader; --data is the folder of entailment files."""
     from qacheck.train.nli import train_nli
 
-    _train(train_nli, **opts, qa_data=qa_data, synthetic=synthetic)
+    _train(train_nli, **opts, qa_data=qa_data, synthetic=synthetic, contrast=contrast,
+           file_cap=file_cap)
 
 
 def _train(trainer, data, out, seed, batch_size, lr, epochs, max_steps, limit, checkpoint_every,

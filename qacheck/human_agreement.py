@@ -285,7 +285,7 @@ def _sentence_rows(f: dict[str, Any]) -> tuple[list[dict[str, float]], list[bool
         for s, ok in zip(pr.sentences, sentence_labels(r, res, need)):
             if ok is None:
                 continue
-            rows.append(sentence_features(s, r.source))
+            rows.append(sentence_features(s))
             y.append(ok)
             hit.append(any(q.conflict and q.outcome == "contradicted" for q in s.questions))
     return rows, y, hit

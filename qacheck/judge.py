@@ -35,7 +35,6 @@ from typing import Any
 
 from qacheck.config import Thresholds
 from qacheck.results import FLAGGED, PairResult, QuestionResult, Reason, SentenceResult
-from qacheck.words import novel_words
 
 #: the sentence model's inputs, in a fixed order
 FEATURES: tuple[str, ...] = (
@@ -44,6 +43,8 @@ FEATURES: tuple[str, ...] = (
     "novel_word_share",       # share of the sentence's content words the source never uses
     "novel_fact_unanswered",  # a name/number/date question the source cannot answer, whose
                               # answer words the source never uses at all
+    "novel_fact",             # a name/number/date span holding a word the source never uses,
+                              # answered or not
     "unchecked",              # no question survived the round trip: judged by its words alone
     "claim_entailed",         # the entailment reader: P(entailed) on the best-supporting window
     "claim_contradicted",     # and P(contradicted) on that window
@@ -72,29 +73,28 @@ def question_outcome(agreement: float, conflict: str | None, no_answer_prob: flo
     return "contradicted", score
 
 
-def sentence_features(sentence: SentenceResult, source: str,
-                      novel: tuple[list[str], int] | None = None) -> dict[str, float]:
-    """The sentence model's inputs for one sentence, by name.
+def sentence_features(sentence: SentenceResult) -> dict[str, float]:
+    """The sentence model's inputs for one sentence, by name, from its evidence alone.
 
-    ``novel`` is ``novel_words(sentence.text, source)`` when the caller has
-    it already.  A sentence without a reading (no entailment reader
-    installed) gets the reader's uninformed values, a third for each class.
+    A sentence without a reading (no entailment reader installed) gets the
+    reader's uninformed values, a third for each class.
     """
-    novel, n_content = novel or novel_words(sentence.text, source)
-    share = len(novel) / n_content if n_content else 0.0
+    n_content = sentence.content_words
+    share = len(sentence.novel_words) / n_content if n_content else 0.0
     c = sentence.claim
     claim = {"claim_entailed": c.entailed if c else 1 / 3,
              "claim_contradicted": c.contradicted if c else 1 / 3}
     qs = sentence.questions
     if not qs:
         return {"qa_mean": 0.0, "qa_min": 0.0, "novel_word_share": share,
-                "novel_fact_unanswered": 0.0, "unchecked": 1.0, **claim}
+                "novel_fact_unanswered": 0.0, "novel_fact": 0.0, "unchecked": 1.0, **claim}
     scores = [q.score for q in qs]
-    fact = any(q.outcome == "unverifiable" and q.span_kind in FACT_KINDS
-               and novel_words(q.span, source)[0] for q in qs)
+    fact = any(q.outcome == "unverifiable" and q.span_kind in FACT_KINDS and q.novel_span
+               for q in qs)
+    novel_fact = any(q.span_kind in FACT_KINDS and q.novel_span for q in qs)
     return {"qa_mean": sum(scores) / len(scores), "qa_min": min(scores),
-            "novel_word_share": share, "novel_fact_unanswered": float(fact), "unchecked": 0.0,
-            **claim}
+            "novel_word_share": share, "novel_fact_unanswered": float(fact),
+            "novel_fact": float(novel_fact), "unchecked": 0.0, **claim}
 
 
 @dataclass(frozen=True)
@@ -166,6 +166,13 @@ class SentenceModel:
         return hashlib.sha256(json.dumps(self.as_dict(), sort_keys=True).encode()).hexdigest()
 
     @classmethod
+    def untrained(cls) -> "SentenceModel":
+        """P(faithful) 0.5 for every sentence: what ``agreement --fit`` judges with while it
+        collects the evidence for a first fit of a changed feature set."""
+        n = len(FEATURES)
+        return cls((0.0,) * n, (1.0,) * n, (0.0,) * n, 0.0, 0.5, 0.5)
+
+    @classmethod
     def shipped(cls) -> "SentenceModel":
         """The model shipped in ``qacheck/judge_model.json`` (written by ``agreement --fit``)."""
         text = resources.files("qacheck").joinpath("judge_model.json").read_text(encoding="utf-8")
@@ -195,8 +202,7 @@ def _evidence_text(s: SentenceResult, feats: dict[str, float]) -> str:
     return "; ".join(parts)
 
 
-def judge_sentence(s: SentenceResult, source: str, model: SentenceModel,
-                   thr: Thresholds) -> SentenceResult:
+def judge_sentence(s: SentenceResult, model: SentenceModel, thr: Thresholds) -> SentenceResult:
     """A new sentence result with its score, label and reason.
 
     A typed conflict on a question labels it outright; otherwise the sentence
@@ -205,9 +211,7 @@ def judge_sentence(s: SentenceResult, source: str, model: SentenceModel,
     at P >= 0.9") it was right on 3 of 12 development sentences, so it labels
     nothing on its own.
     """
-    found = novel_words(s.text, source)
-    feats = sentence_features(s, source, found)
-    novel = found[0]
+    feats = sentence_features(s)
     p = model.predict_proba(feats)
     cut = max(model.cut_, thr.sentence_floor)
     hit = _first_conflict(s.questions)
@@ -218,9 +222,9 @@ def judge_sentence(s: SentenceResult, source: str, model: SentenceModel,
                f'were right {model.conflict_precision_:.0%} of the time on development data)')
         reason = Reason(q.conflict, why, round(p, 4), cut, hit,
                         f'source says "{q.source_answer}"')
-        return replace(s, score=round(p, 4), label="contradicted", novel_words=novel,
+        return replace(s, score=round(p, 4), label="contradicted",
                        evidence={k: round(v, 4) for k, v in feats.items()}, reason=reason)
-    done = replace(s, score=round(p, 4), novel_words=novel,
+    done = replace(s, score=round(p, 4),
                    evidence={k: round(v, 4) for k, v in feats.items()})
     if p >= cut:
         return replace(done, label="supported", reason=Reason(
@@ -241,7 +245,7 @@ def judge(result: PairResult, model: SentenceModel, thr: Thresholds | None = Non
     ``thr`` defaults to the shipped thresholds.
     """
     thr = thr or Thresholds.shipped()
-    sentences = [judge_sentence(s, result.source, model, thr) for s in result.sentences]
+    sentences = [judge_sentence(s, model, thr) for s in result.sentences]
     if not sentences:
         return replace(result, score=None, label="unscored", sentences=[], counts={},
                        unchecked_share=0.0)

@@ -36,12 +36,13 @@ def tokens(text: str) -> list[str]:
 
 
 @lru_cache(maxsize=1)
-def _wordnet():
-    """nltk's WordNet reader over Debian's files, or None when they are not installed.
+def _wordnet_folder() -> Path | None:
+    """A folder nltk can read WordNet 3.0 from, or None when Debian's files are not installed.
 
     nltk also wants WordNet's ``lexnames`` table, which Debian ships only as
     the lexnames(5WN) manual page; the table is read from there into a cache
     folder beside copies of the database files (nltk refuses linked files).
+    No nltk import here: the signature asks only whether WordNet is present.
     """
     import gzip
     import os
@@ -49,9 +50,6 @@ def _wordnet():
 
     if not (WORDNET_DIR / "data.adj").exists() or not _LEXNAMES_MAN.exists():
         return None
-    import nltk.data
-    from nltk.corpus.reader.wordnet import WordNetCorpusReader
-
     cache = Path(os.environ.get("QACHECK_CACHE_DIR", Path.home() / ".cache" / "qacheck")) / "wordnet"
     cache.mkdir(parents=True, exist_ok=True)
     for f in WORDNET_DIR.iterdir():  # nltk refuses links, hard or symbolic: copy once
@@ -70,6 +68,18 @@ def _wordnet():
         tmp = lex.with_suffix(f".{os.getpid()}")
         tmp.write_text("".join(f"{i}\t{name}\t0\n" for i, name in rows))
         tmp.replace(lex)
+    return cache
+
+
+@lru_cache(maxsize=1)
+def _wordnet():
+    """nltk's WordNet reader over ``_wordnet_folder()``, or None without WordNet."""
+    cache = _wordnet_folder()
+    if cache is None:
+        return None
+    import nltk.data
+    from nltk.corpus.reader.wordnet import WordNetCorpusReader
+
     if str(cache) not in nltk.data.path:  # nltk reads only from folders it is told of
         nltk.data.path.append(str(cache))
     import warnings
@@ -85,7 +95,7 @@ def _wordnet():
 
 
 def wordnet_available() -> bool:
-    return _wordnet() is not None
+    return _wordnet_folder() is not None
 
 
 @lru_cache(maxsize=16384)

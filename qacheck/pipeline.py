@@ -4,28 +4,36 @@ Models load once, lazily, on first use.  ``check_many`` batches every stage
 across all pairs it is given: one spaCy pass, one QG call, one QA call on the
 outputs and one on the sources.  A question's round trip reads its sentence
 and the sentences on either side, never the whole output, so a sentence's
-verdict does not depend on what else the output says.
+verdict does not depend on what else the output says; its source answer
+reads only the few source windows that can hold it (``qacheck.retrieval``),
+so the cost of a question does not grow with the source.
 """
 from __future__ import annotations
 
+import json
 import time
-from importlib.metadata import version
 from collections import Counter
+from collections.abc import Callable
 from contextlib import contextmanager
-from dataclasses import dataclass
+from dataclasses import asdict, dataclass
+from functools import cached_property
+from importlib.metadata import version
 from pathlib import Path
 
 from qacheck.answer_match import match_answers, token_f1
+from qacheck.cache import ResultCache, memoised
 from qacheck.config import Thresholds, signature
 from qacheck.drafting import keeps_to_sentence, rule_question
 from qacheck.errors import InputError
 from qacheck.judge import SentenceModel, judge, question_outcome
 from qacheck.language import language_warnings
-from qacheck.models.nli import NLIModel
-from qacheck.models.qa import QAModel
+from qacheck.models.nli import NLIModel, Reading
+from qacheck.models.qa import Answer, QAModel
 from qacheck.models.qg import QGModel
 from qacheck.results import ClaimResult, PairResult, QuestionResult, SentenceResult
+from qacheck.retrieval import Passage, passage
 from qacheck.segment import SPACY_MODEL, Sentence, Span, segment_many
+from qacheck.words import novel_words
 
 
 @dataclass
@@ -49,7 +57,7 @@ class Checker:
 
     def __init__(self, thresholds: Thresholds | None = None, qa: QAModel | None = None,
                  qg: QGModel | None | bool = None, model: SentenceModel | None = None,
-                 nli: NLIModel | None | bool = None) -> None:
+                 nli: NLIModel | None | bool = None, store: ResultCache | None = None) -> None:
         self.thresholds = thresholds or Thresholds.shipped()
         self.model = model or SentenceModel.shipped()
         if nli is None:
@@ -59,6 +67,10 @@ class Checker:
         if qg is None:
             qg = QGModel() if QGModel.available() else False
         self.qg: QGModel | None = qg or None
+        #: where answers and readings are kept per (question, context) and (evidence, claim)
+        self.store = store
+        #: called with each stage's name as it starts (the CLI's progress line)
+        self.on_stage: Callable[[str], None] | None = None
         #: seconds spent in each stage since creation (read by the benchmark)
         self.stage_seconds: Counter[str] = Counter()
         for m in (self.qa, self.qg, self.nli):
@@ -67,18 +79,20 @@ class Checker:
 
     @contextmanager
     def _stage(self, name: str):
+        if self.on_stage is not None:
+            self.on_stage(name)
         t0 = time.perf_counter()
         try:
             yield
         finally:
             self.stage_seconds[name] += time.perf_counter() - t0
 
-    @property
+    @cached_property
     def signature(self) -> dict:
         """Everything that can change a result (``qacheck.config.signature``)."""
         return self._signature(with_judge=True)
 
-    @property
+    @cached_property
     def evidence_signature(self) -> dict:
         """Everything that can change the questions and answers, but not the judging.
 
@@ -88,30 +102,40 @@ class Checker:
         return self._signature(with_judge=False)
 
     def _signature(self, with_judge: bool) -> dict:
-        import spacy
-        import torch
-        import transformers
-
+        """Library versions come from package metadata, so that a run whose every pair is
+        cached never imports torch, transformers or spaCy."""
+        from qacheck import retrieval
         from qacheck.opposites import wordnet_available
 
         digests = {"qa": self.qa.digest}
         if with_judge:
             digests["judge"] = self.model.digest
         runtime = {"qa": self.qa.settings,
+                   "qa_source": {"window_words": retrieval.WINDOW_WORDS,
+                                 "top_k": retrieval.QA_TOP_K},
                    "spacy_model": f"{SPACY_MODEL} {version(SPACY_MODEL.replace('_', '-'))}",
                    "precision": "bf16" if self.qa.bf16 else "fp32",
-                   "torch": torch.__version__, "transformers": transformers.__version__,
-                   "spacy": spacy.__version__, "wordnet": "3.0" if wordnet_available() else "absent"}
+                   "torch": version("torch"), "transformers": version("transformers"),
+                   "spacy": version("spacy"), "wordnet": "3.0" if wordnet_available() else "absent"}
         if self.qg is not None:
             digests["qg"] = self.qg.digest
             runtime["qg"] = self.qg.settings
         if self.nli is not None:
-            from qacheck import retrieval
-
             digests["nli"] = self.nli.digest
             runtime["nli"] = {**self.nli.settings, "window_words": retrieval.WINDOW_WORDS,
                               "top_k": retrieval.TOP_K}
         return signature(digests, self.thresholds, runtime)
+
+    def _answer(self, items: list[tuple[str, str]]) -> list[Answer]:
+        """QA answers to (question, context) items, each computed once per model and settings."""
+        scope = json.dumps(["qa", self.qa.digest, self.qa.settings, self.qa.bf16], sort_keys=True)
+        return memoised(self.qa.answer, items, self.store, scope, asdict, lambda d: Answer(**d))
+
+    def _read(self, items: list[tuple[str, str]]) -> list[Reading]:
+        """Entailment readings of (evidence, claim) items, each computed once per reader."""
+        scope = json.dumps(["nli", self.nli.digest, self.nli.settings, self.nli.bf16],
+                           sort_keys=True)
+        return memoised(self.nli.read, items, self.store, scope, asdict, lambda d: Reading(**d))
 
     def check(self, source: str, output: str) -> PairResult:
         """Check one (source, output) pair."""
@@ -127,12 +151,18 @@ class Checker:
         with self._stage("segment"):
             segmented = segment_many([out for _, out in pairs], thr.max_spans_per_sentence)
         kept = self._questions(segmented, pairs)
+        with self._stage("retrieve"):
+            passages = [passage(pairs[c.pair][0], q) for c, _, q, _ in kept]
         with self._stage("qa_source"):
-            src_answers = self.qa.answer([(q, pairs[c.pair][0]) for c, _, q, _ in kept])
+            read = self._answer([(q, ps.text) for (_, _, q, _), ps in zip(kept, passages)])
+        src_answers = [_in_source(a, ps, pairs[c.pair][0])
+                       for a, ps, (c, _, _, _) in zip(read, passages, kept)]
         sig = self.signature
         by_pair = [[SentenceResult(s.text, s.start, s.end, None, "unverifiable",
-                                   spans_considered=len(s.spans)) for s in sents]
-                   for sents in segmented]
+                                   spans_considered=len(s.spans),
+                                   novel_words=(found := novel_words(s.text, src))[0],
+                                   content_words=found[1]) for s in sents]
+                   for sents, (src, _) in zip(segmented, pairs)]
         for (cand, drafter, question, out_ans), src_ans in zip(kept, src_answers):
             answered = src_ans.no_answer_prob <= thr.no_answer and src_ans.has_answer
             m = match_answers(out_ans.text, src_ans.text, cand.span.kind)
@@ -146,7 +176,8 @@ class Checker:
                 no_answer_prob=round(src_ans.no_answer_prob, 4), f1=round(m.f1, 4),
                 match_kind=m.kind, same=m.same, conflict=m.conflict if answered else None,
                 conflict_detail=m.detail if answered else "", outcome=outcome,
-                score=round(score, 4)))
+                score=round(score, 4),
+                novel_span=bool(novel_words(cand.span.text, pairs[cand.pair][0])[0])))
         if self.nli is not None:
             with self._stage("claims"):
                 self._read_claims(segmented, pairs, by_pair)
@@ -163,7 +194,7 @@ class Checker:
 
         items = [(p, si, w) for p, sents in enumerate(segmented) for si, s in enumerate(sents)
                  for w in best_windows(pairs[p][0], s.text)]
-        readings = self.nli.read([(w.text, segmented[p][si].text) for p, si, w in items])
+        readings = self._read([(w.text, segmented[p][si].text) for p, si, w in items])
         best: dict[tuple[int, int], tuple] = {}
         for (p, si, w), r in zip(items, readings):
             if (p, si) not in best or r.entailed > best[p, si][1].entailed:
@@ -211,7 +242,7 @@ class Checker:
         neighbours, answers it with the span itself (overlapping it, token F1
         at least ``round_trip_f1``).
         """
-        answers = self.qa.answer([(c.drafts[-1][1], pairs[c.pair][1][c.window[0]:c.window[1]])
+        answers = self._answer([(c.drafts[-1][1], pairs[c.pair][1][c.window[0]:c.window[1]])
                                   for c in cands])
         kept, failed = [], []
         for c, a in zip(cands, answers):
@@ -224,6 +255,14 @@ class Checker:
             else:
                 failed.append(c)
         return kept, failed
+
+
+def _in_source(answer: Answer, read: Passage, source: str) -> Answer:
+    """An answer found in a passage, with its offsets and text in the source."""
+    if not answer.has_answer:
+        return answer
+    start, end = read.to_source(answer.start), read.to_source(answer.end)
+    return Answer(source[start:end], start, end, answer.score, answer.no_answer_prob)
 
 
 def _neighbourhood(sents: list[Sentence], i: int) -> tuple[int, int]:

@@ -39,6 +39,8 @@ class QuestionResult:
     conflict_detail: str
     outcome: QuestionOutcome
     score: float
+    #: the span holds a content word whose stem the source never uses at all
+    novel_span: bool = False
 
 
 @dataclass(frozen=True)
@@ -83,8 +85,10 @@ class SentenceResult:
     label: SentenceLabel
     questions: list[QuestionResult] = field(default_factory=list)
     spans_considered: int = 0
-    #: content words of the sentence that the source never uses (stemmed match)
+    #: content words of the sentence that the source never uses (stemmed match), and how many
+    #: content words the sentence has: evidence found with the questions, read by the judge
     novel_words: list[str] = field(default_factory=list)
+    content_words: int = 0
     #: the sentence model's inputs, by name (``qacheck.judge.FEATURES``)
     evidence: dict[str, float] = field(default_factory=dict)
     reason: Reason | None = None

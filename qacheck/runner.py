@@ -59,14 +59,15 @@ def case_status(case: Case, result: dict[str, Any] | None) -> tuple[str, list[st
 _WORKER = None
 
 
-def _worker_init(thresholds: dict[str, Any], threads: int) -> None:
+def _worker_init(thresholds: dict[str, Any], threads: int, cache_path: str | None) -> None:
     import torch
 
     from qacheck.pipeline import Checker
 
     global _WORKER
     torch.set_num_threads(threads)
-    _WORKER = Checker(Thresholds.from_dict(thresholds))
+    store = ResultCache(Path(cache_path)) if cache_path else None
+    _WORKER = Checker(Thresholds.from_dict(thresholds), store=store)
 
 
 def _worker_score(pairs: list[tuple[str, str]]) -> list[dict[str, Any]]:
@@ -85,7 +86,7 @@ class Scorer:
         from qacheck.pipeline import Checker
 
         self.thresholds = thresholds
-        self.checker = checker or Checker(thresholds)
+        self.checker = checker or Checker(thresholds, store=cache)
         self.cache, self.workers, self.batch_size = cache, max(1, workers), batch_size
         self.model = self.checker.model
         self.signature = self.checker.signature
@@ -123,7 +124,8 @@ class Scorer:
         # spawn, not fork: forking a process whose OpenMP threads are running can hang
         with ProcessPoolExecutor(self.workers, mp_context=multiprocessing.get_context("spawn"),
                                  initializer=_worker_init,
-                                 initargs=(self.thresholds.as_dict(), threads)) as pool:
+                                 initargs=(self.thresholds.as_dict(), threads,
+                                           str(self.cache.path) if self.cache else None)) as pool:
             futures = [(idx, pool.submit(_worker_score, [pairs[i] for i in idx])) for idx in batches]
             yield from self._store(((idx, f.result()) for idx, f in futures), pairs)
 
@@ -330,6 +332,6 @@ def gate(current: dict[str, Any], records: list[dict[str, Any]], baseline_dir: P
         msgs.append(f"mean score over the {len(both)} cases scored in both runs dropped by "
                     f"{drop:.3f} (tolerance {tolerance:.3f})")
     for r in newly:
-        msgs.append(f"case {r['id']} passed in the baseline and now is {r['status']}: "
-                    + "; ".join(r["reasons"]))
+        # the evidence (flagged sentences, rules, fixes) is listed with the case in every report
+        msgs.append(f"regression: case {r['id']} passed in the baseline, now {r['status']}")
     return GateResult(ok, mismatch, drop, newly, msgs)

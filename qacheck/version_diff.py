@@ -22,6 +22,8 @@ class Comparison:
     only_a: list[str]
     only_b: list[str]
     unscored: list[str]
+    #: cases in both runs without a score on one side, with each side's status
+    not_compared: list[dict[str, str]]
     sentence_counts: dict[str, dict[str, int]]
     pairs: list[dict[str, Any]]  # per case: id, score_a, score_b, diff, records
     top: int
@@ -41,6 +43,7 @@ class Comparison:
         return {"a": self.a_name, "b": self.b_name, "set": self.set_name,
                 "signature": self.signature, **self.stats.as_dict(), "verdict": self.verdict,
                 "only_a": self.only_a, "only_b": self.only_b, "unscored": self.unscored,
+                "not_compared": self.not_compared,
                 "sentences": self.sentence_counts,
                 "cases": [{k: p[k] for k in ("id", "score_a", "score_b", "diff")} for p in self.pairs],
                 "regressions": [brief(p) for p in self.regressions],
@@ -71,11 +74,12 @@ def compare_runs(a_dir: Path, b_dir: Path, resamples: int = 10_000, seed: int = 
     a_by, b_by = {r["id"]: r for r in ra}, {r["id"]: r for r in rb}
     only_a = sorted(set(a_by) - set(b_by))
     only_b = sorted(set(b_by) - set(a_by))
-    pairs, unscored = [], []
+    pairs, unscored, not_compared = [], [], []
     for cid in [r["id"] for r in ra if r["id"] in b_by]:
         x, y = a_by[cid], b_by[cid]
         if x["score"] is None or y["score"] is None:
             unscored.append(cid)
+            not_compared.append({"id": cid, "a": x["status"], "b": y["status"]})
             continue
         pairs.append({"id": cid, "score_a": x["score"], "score_b": y["score"],
                       "diff": round(y["score"] - x["score"], 6), "a": x, "b": y})
@@ -93,6 +97,6 @@ def compare_runs(a_dir: Path, b_dir: Path, resamples: int = 10_000, seed: int = 
 
     ids = {p["id"] for p in pairs}
     return Comparison(sa["outputs"], sb["outputs"], sa["set"], sa["signature"], st,
-                      verdict_sentence(st), only_a, only_b, unscored,
+                      verdict_sentence(st), only_a, only_b, unscored, not_compared,
                       {"A": counts([a_by[i] for i in ids]), "B": counts([b_by[i] for i in ids])},
                       pairs, top)

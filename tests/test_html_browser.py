@@ -46,20 +46,37 @@ def _report(tmp_path: Path) -> Path:
     return page
 
 
-def test_report_loads_without_console_errors_and_renders(tmp_path):
-    page = _report(tmp_path)
-    shot = tmp_path / "shot.png"
-    res = _browser(tmp_path, page, f"--screenshot={shot}", "--window-size=1200,900")
-    assert shot.exists(), res.stderr[-2000:]
-    console = [line for line in res.stderr.splitlines() if "CONSOLE" in line]
-    assert not console, console
+def _pages(tmp_path: Path) -> dict[str, Path]:
+    """The three kinds of page: a run report, a pair report and a version comparison."""
+    run = _report(tmp_path)
+    pair = tmp_path / "pair.html"
+    res = CliRunner().invoke(main, ["score", "--source-text", f"The Felwick library opened in "
+                                    f"1962. {INJECTION}", "--output-text",
+                                    "The Felwick library opened in 1971.", "--format", "html",
+                                    "--out", str(pair)])
+    assert res.exit_code == 0, res.output
+    compare = tmp_path / "compare.html"
+    res = CliRunner().invoke(main, ["compare", str(tmp_path / "res"), str(tmp_path / "res"),
+                                    "--format", "html", "--out", str(compare),
+                                    "--resamples", "200"])
+    assert res.exit_code == 0, res.output
+    return {"run": run, "pair": pair, "compare": compare}
+
+
+def test_every_report_loads_without_console_errors_and_renders(tmp_path):
     from PIL import Image
 
-    img = Image.open(shot).convert("L")
-    lo, hi = img.getextrema()
-    assert hi - lo > 100, "screenshot is blank"
-    # most of the page is white, but text and highlights are there too
-    assert len(img.getcolors(256)) > 20  # distinct grey levels (an "L" image has at most 256)
+    for name, page in _pages(tmp_path).items():
+        shot = tmp_path / f"{name}.png"
+        res = _browser(tmp_path, page, f"--screenshot={shot}", "--window-size=1200,900")
+        assert shot.exists(), (name, res.stderr[-2000:])
+        console = [line for line in res.stderr.splitlines() if "CONSOLE" in line]
+        assert not console, (name, console)  # a script error would show here
+        img = Image.open(shot).convert("L")
+        lo, hi = img.getextrema()
+        assert hi - lo > 100, f"{name}: screenshot is blank"
+        # most of the page is white, but text and marks are there too
+        assert len(img.getcolors(256)) > 20, name
 
 
 def test_markup_from_inputs_stays_text(tmp_path):
@@ -67,6 +84,7 @@ def test_markup_from_inputs_stays_text(tmp_path):
     res = _browser(tmp_path, page, "--dump-dom")
     dom = res.stdout
     assert "PWNED" not in dom.split("<title>")[1].split("</title>")[0]
-    assert "<script" not in dom.lower()
+    # the page's own sorting and filtering script is its only script element
+    assert dom.lower().count("<script") == 1 and "document.getElementById(\"cases\")" in dom
     assert "&lt;script&gt;" in dom  # shown as text
     assert "inj&lt;b&gt;1&lt;/b&gt;" in dom

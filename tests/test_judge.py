@@ -14,12 +14,13 @@ import pytest
 
 from qacheck.judge import FEATURES, SentenceModel, judge, sentence_features
 from qacheck.results import PairResult, QuestionResult, SentenceResult
+from qacheck.words import novel_words
 
 SOURCE = "The Harl ferry leaves Caldreth at 9 am. It carries 40 cars."
 #: P(faithful) rises with the question scores and falls with novel words and unchecked sentences
-MODEL = SentenceModel(mean_=(0.5, 0.5, 0.2, 0.0, 0.0, 1 / 3, 1 / 3),
-                      scale_=(0.2, 0.2, 0.1, 1.0, 1.0, 0.2, 0.2),
-                      coef_=(1.0, 1.0, -3.0, -1.0, -1.0, 1.0, -1.0), intercept_=0.0, cut_=0.5,
+MODEL = SentenceModel(mean_=(0.5, 0.5, 0.2, 0.0, 0.0, 0.0, 1 / 3, 1 / 3),
+                      scale_=(0.2, 0.2, 0.1, 1.0, 1.0, 1.0, 0.2, 0.2),
+                      coef_=(1.0, 1.0, -3.0, -1.0, -1.0, -1.0, 1.0, -1.0), intercept_=0.0, cut_=0.5,
                       conflict_precision_=0.8)
 
 
@@ -29,11 +30,19 @@ def _q(outcome: str, conflict: str | None = None, score: float = 0.9,
     return QuestionResult("How many cars does it carry?", "rules", span, kind, span,
                           ("55" if conflict else span) if answered else None, None, None,
                           0.05 if answered else 0.9, 0.0 if conflict else 1.0, "amount",
-                          conflict is None and answered, conflict, "", outcome, score)
+                          conflict is None and answered, conflict, "", outcome, score,
+                          bool(novel_words(span, SOURCE)[0]))
+
+
+def _sentence(output: str, questions: list[QuestionResult]) -> SentenceResult:
+    """A sentence with its word evidence filled in as the evidence stage does."""
+    novel, n = novel_words(output, SOURCE)
+    return SentenceResult(output, 0, len(output), None, "supported", questions,
+                          novel_words=novel, content_words=n)
 
 
 def _pair(output: str, questions: list[QuestionResult]) -> PairResult:
-    s = SentenceResult(output, 0, len(output), None, "supported", questions)
+    s = _sentence(output, questions)
     return judge(PairResult(None, "unscored", [s], {}, {}, SOURCE, output), MODEL)
 
 
@@ -48,7 +57,7 @@ def test_typed_conflict_flags_whatever_the_model_says():
     good = [_q("supported"), _q("supported"), _q("supported")]
     r = _pair("The Harl ferry carries 40 cars.", good + [_q("contradicted", "value", score=0.45)])
     s = r.sentences[0]
-    feats = sentence_features(s, SOURCE)
+    feats = sentence_features(s)
     assert MODEL.predict_proba(feats) >= MODEL.cut_  # the model alone would pass it
     assert s.label == "contradicted" and r.label == "inconsistent"
     assert s.reason.rule == "value" and s.reason.question == 3
@@ -68,11 +77,16 @@ def test_words_the_source_lacks_flag_a_sentence_as_unverifiable():
 def test_unanswered_question_about_a_new_name_is_its_own_evidence():
     out = "The Harl ferry, run by Vorne Lines, carries 40 cars."
     q = _q("unverifiable", span="Vorne Lines", kind="ORG", score=0.05)
-    feats = sentence_features(SentenceResult(out, 0, len(out), None, "supported", [q]), SOURCE)
+    feats = sentence_features(_sentence(out, [q]))
     assert feats["novel_fact_unanswered"] == 1.0
     known = _q("unverifiable", span="Caldreth", kind="GPE", score=0.05)
-    feats = sentence_features(SentenceResult(out, 0, len(out), None, "supported", [known]), SOURCE)
+    feats = sentence_features(_sentence(out, [known]))
     assert feats["novel_fact_unanswered"] == 0.0  # the source names Caldreth
+    # a new name counts as a novel fact whether or not the source answers its question
+    answered = _q("supported", span="Vorne Lines", kind="ORG")
+    feats = sentence_features(_sentence(out, [answered]))
+    assert feats["novel_fact"] == 1.0 and feats["novel_fact_unanswered"] == 0.0
+    assert sentence_features(_sentence(out, [known]))["novel_fact"] == 0.0
 
 
 def test_sentence_without_questions_is_still_judged_by_its_words():
@@ -87,7 +101,7 @@ def test_the_entailment_reading_is_weighed_evidence():
     from qacheck.results import ClaimResult
 
     out = "The Harl ferry carries 40 cars."
-    base = SentenceResult(out, 0, len(out), None, "supported", [_q("supported", score=0.6)])
+    base = _sentence(out, [_q("supported", score=0.6)])
     backed = judge(PairResult(None, "unscored", [replace(base, claim=ClaimResult(
         0, 20, 0.95, 0.02, 0.03))], {}, {}, SOURCE, out), MODEL).sentences[0]
     denied = judge(PairResult(None, "unscored", [replace(base, claim=ClaimResult(
@@ -98,7 +112,7 @@ def test_the_entailment_reading_is_weighed_evidence():
 
 def test_judge_returns_a_new_result():
     out = "The Harl ferry carries 40 cars."
-    s = SentenceResult(out, 0, len(out), None, "supported", [_q("supported")])
+    s = _sentence(out, [_q("supported")])
     before = PairResult(None, "unscored", [s], {}, {}, SOURCE, out)
     after = judge(before, MODEL)
     assert before.score is None and before.sentences[0].reason is None
@@ -150,7 +164,7 @@ def test_leave_one_file_out_generalises_on_separable_files():
                    f"A brass band from Vorne played {i} songs on the ferry.")
             q = _q("supported", score=0.85 + 0.01 * (i % 5)) if good else \
                 _q("unverifiable", span="Vorne", kind="GPE", score=0.05 + 0.01 * (i % 5))
-            s = SentenceResult(out, 0, len(out), None, "supported", [q])
+            s = _sentence(out, [q])
             results.append(PairResult(None, "unscored", [s], {}, {}, SOURCE, out).to_dict())
             records.append(Judged(f"{name}{i}", name, SOURCE, out, good, ()))
         return {"y": [r.consistent for r in records], "records": records, "results": results,

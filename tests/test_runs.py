@@ -39,7 +39,10 @@ def test_run_writes_results_summary_markdown_junit_html(tmp_path):
     suite = ET.parse(folder / "junit.xml").getroot()
     assert suite.tag == "testsuite" and suite.get("tests") == "8" and suite.get("failures") == "0"
     assert "8 passed" in (folder / "summary.md").read_text()
-    assert "<script" not in (folder / "report.html").read_text()
+    page = (folder / "report.html").read_text()
+    # self-contained: its one script is inline (sorting and filtering), nothing is fetched
+    assert page.count("<script") == 1 and "<script src" not in page
+    assert "http://" not in page and "https://" not in page
 
 
 def test_gate_fails_on_planted_regressions_and_lists_them(tmp_path):
@@ -155,33 +158,47 @@ def test_resume_and_cache_skip_finished_cases(tmp_path, checker):
     assert strip(first.records) == strip(again.records) == strip(warm.records)
 
 
-@pytest.mark.parametrize("sig", [signal.SIGKILL, signal.SIGINT])
-def test_killed_run_loses_nothing_and_resumes_to_same_results(tmp_path, sig):
-    env = {**os.environ, "QACHECK_CACHE": str(tmp_path / "unused.sqlite")}
-    args = [*QACHECK, "run", str(PORT), "--outputs", "writer-v2", "--batch-size", "1", "--no-cache"]
-    ref = subprocess.run(args + ["--results", str(tmp_path / "ref")], env=env, capture_output=True,
-                         text=True, timeout=600)
+@pytest.fixture(scope="module")
+def uninterrupted(tmp_path_factory) -> list[tuple[str, float, str]]:
+    """(id, score, status) of every case of a run that nobody stopped."""
+    tmp = tmp_path_factory.mktemp("ref")
+    env = {**os.environ, "QACHECK_CACHE": str(tmp / "unused.sqlite")}
+    ref = subprocess.run([*QACHECK, "run", str(PORT), "--outputs", "writer-v2", "--no-cache",
+                          "--results", str(tmp / "ref")], env=env, capture_output=True, text=True,
+                         timeout=600)
     assert ref.returncode == 1, ref.stderr  # writer-v2 has failing cases
-    out = tmp_path / "killed"
-    proc = subprocess.Popen(args + ["--results", str(out)], env=env, stdout=subprocess.DEVNULL,
-                            stderr=subprocess.DEVNULL)
-    results = out / "results.jsonl"
+    return [(r["id"], r["score"], r["status"]) for r in
+            map(json.loads, (tmp / "ref" / "results.jsonl").read_text().splitlines())]
+
+
+@pytest.mark.parametrize("sig, batch, after", [
+    (signal.SIGKILL, 1, 3),   # between cases
+    (signal.SIGINT, 1, 3),    # Ctrl-C
+    (signal.SIGKILL, 4, 0),   # inside the first batch of the set's 8 cases, nothing finished
+    (signal.SIGKILL, 4, 4),   # after a whole batch
+])
+def test_killed_run_loses_nothing_and_resumes_to_same_results(tmp_path, uninterrupted, sig,
+                                                               batch, after):
+    env = {**os.environ, "QACHECK_CACHE": str(tmp_path / "c.sqlite")}
+    args = [*QACHECK, "run", str(PORT), "--outputs", "writer-v2", "--batch-size", str(batch),
+            "--results", str(tmp_path / "killed")]
+    proc = subprocess.Popen(args, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    results = tmp_path / "killed" / "results.jsonl"
     deadline = time.time() + 300
     while time.time() < deadline:
-        if results.exists() and len(results.read_text().splitlines()) >= 3:
+        if results.exists() and len(results.read_text().splitlines()) >= after:
             break
         time.sleep(0.05)
     proc.send_signal(sig)
     proc.wait(timeout=60)
     saved = [json.loads(x) for x in results.read_text().splitlines() if x.strip()]
-    assert 3 <= len(saved) <= 8
-    resumed = subprocess.run(args + ["--results", str(out)], env=env, capture_output=True, text=True,
-                             timeout=600)
-    assert resumed.returncode == 1
+    assert after <= len(saved) < len(uninterrupted)  # finished cases are on disk, not all ran
+    reference = {i: (i, score, status) for i, score, status in uninterrupted}
+    assert all((r["id"], r["score"], r["status"]) == reference[r["id"]] for r in saved)
+    resumed = subprocess.run(args, env=env, capture_output=True, text=True, timeout=600)
+    assert resumed.returncode == 1, resumed.stderr
     final = [json.loads(x) for x in results.read_text().splitlines()]
-    reference = [json.loads(x) for x in (tmp_path / "ref" / "results.jsonl").read_text().splitlines()]
-    assert [(r["id"], r["score"], r["status"]) for r in final] == \
-        [(r["id"], r["score"], r["status"]) for r in reference]
+    assert [(r["id"], r["score"], r["status"]) for r in final] == uninterrupted
 
 
 def test_set_thresholds_must_be_known(tmp_path):
@@ -239,3 +256,24 @@ def test_a_second_run_into_the_same_folder_is_refused_while_the_first_runs(tmp_p
     assert second.returncode == 2 and f"pid {first.pid}" in second.stderr, second.stderr
     results = [json.loads(x) for x in (out / "results.jsonl").read_text().splitlines()]
     assert len(results) == len({r["id"] for r in results}) == 8
+
+
+def test_a_rerun_served_from_the_cache_loads_no_model_library(tmp_path):
+    """Issue: a nightly rerun where nothing changed must not import torch, transformers or
+    spaCy (seconds each), nor load a model; its results equal the first run's."""
+    env = {**os.environ, "QACHECK_CACHE": str(tmp_path / "c.sqlite")}
+    cold = subprocess.run([*QACHECK, "run", str(PORT), "--outputs", "writer-v1", "--results",
+                           str(tmp_path / "cold")], env=env, capture_output=True, text=True,
+                          timeout=600)
+    assert cold.returncode == 0, cold.stderr
+    probe = ("import sys\nfrom qacheck.cli import main\n"
+             f"try:\n    main(['run', {str(PORT)!r}, '--outputs', 'writer-v1', '--results', "
+             f"{str(tmp_path / 'warm')!r}])\nexcept SystemExit as e:\n    code = e.code\n"
+             "print('loaded', sorted(m for m in ('torch', 'transformers', 'spacy', 'nltk') "
+             "if m in sys.modules), 'exit', code)\n")
+    warm = subprocess.run([sys.executable, "-c", probe], env=env, capture_output=True, text=True,
+                          timeout=600)
+    assert warm.stdout.strip().endswith("loaded [] exit 0"), warm.stdout + warm.stderr
+    read = lambda d: [(r["id"], r["score"], r["status"]) for r in  # noqa: E731
+                      map(json.loads, (tmp_path / d / "results.jsonl").read_text().splitlines())]
+    assert read("warm") == read("cold")

@@ -47,7 +47,7 @@ def test_same_seed_same_figures_and_all_formats(runs):
     two = runner.invoke(main, ["compare", str(a), str(b), "--format", "json", "--seed", "5"]).output
     assert one == two
     md = runner.invoke(main, ["compare", str(a), str(b), "--format", "markdown"]).output
-    assert "| figure | value |" in md and "Top regressions" in md
+    assert "| figure | value |" in md and "Largest drops from A to B" in md
     html = runner.invoke(main, ["compare", str(a), str(b), "--format", "html"]).output
     assert "<svg" in html and "<circle" in html
     same = runner.invoke(main, ["compare", str(a), str(a), "--format", "json"]).output

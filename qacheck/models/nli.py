@@ -9,8 +9,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 from pathlib import Path
 
-import torch
-
 from qacheck.models.base import LockedModel
 from qacheck.models.runtime import PAD_MULTIPLE, ROWS, autocast, cpu_has_bf16, fixed_shape_batches
 
@@ -52,6 +50,7 @@ class NLIModel(LockedModel):
     def _load(self) -> None:
         if self._model is not None:
             return
+        import torch
         from transformers import AutoModelForSequenceClassification, AutoTokenizer
 
         folder = self._resolve()
@@ -61,6 +60,8 @@ class NLIModel(LockedModel):
 
     def read(self, pairs: list[tuple[str, str]]) -> list[Reading]:
         """Read every (evidence, claim) pair."""
+        import torch
+
         if not pairs:
             return []
         self._load()

@@ -13,8 +13,6 @@ from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
-import torch
-
 from qacheck.models.base import LockedModel
 from qacheck.models.runtime import PAD_MULTIPLE, ROWS, autocast, cpu_has_bf16, fixed_shape_batches
 
@@ -73,6 +71,7 @@ class QAModel(LockedModel):
     def _load(self) -> None:
         if self._model is not None:
             return
+        import torch
         from transformers import AutoModelForQuestionAnswering, AutoTokenizer
 
         folder = self._resolve()
@@ -81,6 +80,8 @@ class QAModel(LockedModel):
 
     def answer(self, pairs: list[tuple[str, str]]) -> list[Answer]:
         """Answer every (question, context) pair; empty text means no answer."""
+        import torch
+
         if not pairs:
             return []
         self._load()

@@ -3,8 +3,6 @@ from __future__ import annotations
 
 from pathlib import Path
 
-import torch
-
 from qacheck.models import lock
 from qacheck.models.base import LockedModel
 from qacheck.models.runtime import autocast, cpu_has_bf16
@@ -43,6 +41,7 @@ class QGModel(LockedModel):
     def _load(self) -> None:
         if self._model is not None:
             return
+        import torch
         from transformers import AutoTokenizer, EncoderDecoderModel
 
         folder = self._resolve()
@@ -51,6 +50,8 @@ class QGModel(LockedModel):
 
     def generate(self, items: list[tuple[str, int, int]]) -> list[str]:
         """One question per (sentence, span start, span end), in input order."""
+        import torch
+
         if not items:
             return []
         self._load()

@@ -1,10 +1,12 @@
-"""CPU precision choice shared by the model wrappers."""
+"""CPU precision choice and batching shared by the model wrappers.
+
+torch is imported where a model runs, not here: a run served from the cache
+never loads it.
+"""
 from __future__ import annotations
 
 import contextlib
 from functools import lru_cache
-
-import torch
 
 
 @lru_cache(maxsize=1)
@@ -24,6 +26,8 @@ def cpu_has_bf16() -> bool:
 
 def autocast(enabled: bool | None = None):
     """bf16 autocast where it pays, a no-op context otherwise."""
+    import torch
+
     use = cpu_has_bf16() if enabled is None else enabled
     return torch.autocast("cpu", dtype=torch.bfloat16) if use else contextlib.nullcontext()
 
@@ -50,6 +54,8 @@ def fixed_shape_batches(enc, pad_id: int):
     ``enc`` holds ``input_ids`` and ``token_type_ids`` per window; ``indices``
     are the windows in the batch, in order of its first rows.
     """
+    import torch
+
     padded = [-(-len(ids) // PAD_MULTIPLE) * PAD_MULTIPLE for ids in enc["input_ids"]]
     by_width: dict[int, list[int]] = {}
     for w in sorted(range(len(padded)), key=lambda w: (padded[w], w)):

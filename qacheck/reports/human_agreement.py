@@ -28,7 +28,8 @@ def _table(title: str, files: dict[str, Any]) -> Table:
 
 def render_agreement(res: dict[str, Any], console: Console) -> None:
     console.print(_table("agreement with human judgements", res["files"]))
-    console.print(f"overall ROC AUC {_f(res['overall']['roc_auc'])} on {res['overall']['n']} records")
+    if "overall" in res:
+        console.print(f"overall ROC AUC {_f(res['overall']['roc_auc'])} on {res['overall']['n']} records")
     if "fit" in res:
         fit = res["fit"]
         console.print(f"fitted the sentence model on {fit['n_sentences']} labelled sentences; cut "

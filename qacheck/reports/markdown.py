@@ -30,9 +30,15 @@ def render_run(summary: dict[str, Any], records: list[dict[str, Any]],
            f"**{st.get('pass', 0)} passed, {st.get('fail', 0)} failed, {st.get('error', 0)} errors, "
            f"{st.get('unscored', 0)} unscored** of {summary['cases']} cases; "
            f"mean score {_f(summary['mean_score'])}", ""]
-    if gate_messages:
+    if gate_messages is None:
+        out += ["Regression gate: no baseline given.", ""]
+    elif gate_messages:
         out += ["### Regression gate", ""] + [f"- {_md(m)}" for m in gate_messages] + [""]
-    bad = [r for r in records if r["status"] in ("fail", "error")]
+    else:
+        out += ["Regression gate: passed, no regression against the baseline.", ""]
+    bad = [r for r in records if r["status"] in ("fail", "error", "unscored")]
+    if not bad:
+        out += ["Cases that did not pass: none.", ""]
     if bad:
         out += ["| case | status | score | why |", "|---|---|---|---|"]
         out += [f"| {_md(r['id'])} | {r['status']} | {_f(r['score'])} | {_md('; '.join(r['reasons']))} |"

@@ -4,23 +4,38 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
-from qacheck.reports.html import histogram, render
+from qacheck.reports.html import cut_of, histogram, render
 from qacheck.reports.junit import render_junit
 from qacheck.reports.markdown import render_run
-from qacheck.results import PairResult
+from qacheck.results import FLAGGED, PairResult
+
+
+#: the order cases are listed in: what did not pass first
+STATUS_RANK = {"error": 0, "fail": 1, "unscored": 2, "pass": 3}
 
 
 def write_run_reports(folder: Path, summary: dict[str, Any], records: list[dict[str, Any]],
                       gate_messages: list[str] | None = None) -> list[Path]:
-    """summary.md, junit.xml and report.html beside results.jsonl; returns their paths."""
-    cases = [{"record": r, "pair": PairResult.from_dict(r["result"]) if r.get("result") else None}
-             for r in records]
+    """summary.md, junit.xml and report.html beside results.jsonl; returns their paths.
+
+    ``gate_messages`` is None when no baseline was given (the reports say so).
+    """
+    ordered = sorted(records, key=lambda r: (STATUS_RANK.get(r["status"], 9),
+                                             r["score"] if r["score"] is not None else -1.0))
+    cases = []
+    for r in ordered:
+        pair = PairResult.from_dict(r["result"]) if r.get("result") else None
+        cases.append({"record": r, "pair": pair, "rank": STATUS_RANK.get(r["status"], 9),
+                      "flagged": sum(s.label in FLAGGED for s in pair.sentences) if pair else 0})
     scores = [r["score"] for r in records if r["score"] is not None]
+    cut = next((cut_of(c["pair"]) for c in cases if c["pair"] and cut_of(c["pair"]) is not None),
+               None)
     files = {
-        "summary.md": render_run(summary, records, gate_messages),
+        "summary.md": render_run(summary, ordered, gate_messages),
         "junit.xml": render_junit(summary, records),
         "report.html": render("run.html.j2", title=f"qacheck: {summary['set']}", summary=summary,
-                              cases=cases, bars=histogram(scores), gate_messages=gate_messages),
+                              cases=cases, bars=histogram(scores), gate_messages=gate_messages,
+                              cut=cut),
     }
     paths = []
     for name, text in files.items():

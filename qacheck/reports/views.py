@@ -31,12 +31,14 @@ class SentenceView:
     novel_words: list[str]
 
 
-def excerpt(source: str, start: int | None, end: int | None, width: int = 90) -> str:
-    """The stretch of source around an answer, for evidence views."""
-    if start is None or not source:
-        return ""
-    a, b = max(0, start - width), min(len(source), (end or start) + width)
-    return ("..." if a > 0 else "") + source[a:b] + ("..." if b < len(source) else "")
+def marked_excerpt(source: str, start: int, end: int | None, width: int = 70
+                   ) -> tuple[str, str, str]:
+    """(before, answer, after): the stretch of source around an answer, the answer apart so
+    that each view can mark it in its own way."""
+    end = end or start
+    a, b = max(0, start - width), min(len(source), end + width)
+    return (("..." if a > 0 else "") + source[a:start], source[start:end],
+            source[end:b] + ("..." if b < len(source) else ""))
 
 
 def sentence_views(result: dict[str, Any] | None, verbose: bool = False) -> list[SentenceView]:

@@ -11,7 +11,8 @@ entailed, contradicted, not supported.  Its training data mixes
 * pairs built from the QA training paragraphs in the spirit of the
   synthetic transformations for factual consistency (Kryscinski et al.
   2020): a sentence of the paragraph is an entailed claim, the same sentence
-  with a swapped name, number, negation or antonym a contradicted one, and a
+  with a swapped name, number, negation, antonym or reversed comparison a
+  contradicted one, and a
   sentence from another paragraph of the same article an unsupported one,
   each read against the paragraph as evidence.
 
@@ -72,8 +73,10 @@ def read_nli_file(path: Path) -> list[NLIPair]:
             for r in ds if r["label"] in _LABEL_OF and r["premise"] and r["hypothesis"]]
 
 
-def published_pairs(nli_dir: Path, seed: int) -> tuple[list[NLIPair], list[NLIPair], list[str]]:
-    """Train and held-out pairs from every file that may be trained on, and the files used."""
+def published_pairs(nli_dir: Path, seed: int, cap: int = PER_FILE_CAP
+                    ) -> tuple[list[NLIPair], list[NLIPair], list[str]]:
+    """Train and held-out pairs from every file that may be trained on (at most ``cap`` a
+    file, less for skewed ones), and the files used."""
     rng = random.Random(seed)
     train, held, used = [], [], []
     for path in sorted(nli_dir.glob("*.jsonl.gz")):
@@ -84,7 +87,7 @@ def published_pairs(nli_dir: Path, seed: int) -> tuple[list[NLIPair], list[NLIPa
         tr = [p for p in pairs if not heldout_premise(p.premise)]
         held += [p for p in pairs if heldout_premise(p.premise)]
         rng.shuffle(tr)
-        train += tr[:SKEWED_CAP.get(name, PER_FILE_CAP)]
+        train += tr[:min(cap, SKEWED_CAP.get(name, cap))]
         used.append(name)
     return train, held, used
 
@@ -146,11 +149,30 @@ def _swap_antonym(s: str, rng: random.Random) -> str | None:
     return None
 
 
-def synthetic_pairs(qa_path: Path, n_paragraphs: int, seed: int) -> list[NLIPair]:
-    """Entailed, contradicted and unsupported claims against QA paragraphs (Kryscinski et al.)."""
+#: comparison words and their reversals: the edit that questions cannot see ("rose" / "fell")
+_REVERSALS = (("more", "less"), ("higher", "lower"), ("larger", "smaller"), ("bigger", "smaller"),
+              ("before", "after"), ("earlier", "later"), ("older", "younger"),
+              ("increased", "decreased"), ("rose", "fell"), ("above", "below"),
+              ("first", "last"), ("won", "lost"), ("longer", "shorter"), ("faster", "slower"),
+              ("most", "least"), ("largest", "smallest"), ("highest", "lowest"),
+              ("oldest", "youngest"), ("greater", "lesser"), ("increase", "decrease"),
+              ("majority", "minority"), ("gained", "lost"), ("exceeded", "fell short of"))
+_REVERSE = {**dict(_REVERSALS), **{b: a for a, b in _REVERSALS}}
+
+
+def _reverse_comparison(s: str, rng: random.Random) -> str | None:
+    """A comparison word of the sentence replaced by its reversal ("before" -> "after")."""
+    hits = [m for m in re.finditer(r"\b[a-z]+\b", s) if m.group() in _REVERSE]
+    if not hits:
+        return None
+    m = rng.choice(hits)
+    return s[:m.start()] + _REVERSE[m.group()] + s[m.end():]
+
+
+def paragraphs_by_title(qa_path: Path) -> dict[str, list[str]]:
+    """The distinct paragraphs of a QA training file, by article title (read by ``datasets``)."""
     from datasets import Features, List, Value, load_dataset
 
-    rng = random.Random(seed)
     text = Value("string")
     # "meta" differs in shape between sources: read it as a JSON string, so one schema fits
     features = Features({"id": text, "title": text, "context": text, "question": text,
@@ -162,22 +184,37 @@ def synthetic_pairs(qa_path: Path, n_paragraphs: int, seed: int) -> list[NLIPair
         paras = by_title.setdefault(title, [])
         if context not in paras:
             paras.append(context)
+    return by_title
+
+
+def synthetic_pairs(qa_path: Path, n_paragraphs: int, seed: int) -> list[NLIPair]:
+    """Entailed, contradicted and unsupported claims against QA paragraphs (Kryscinski et al.)."""
+
+    rng = random.Random(seed)
+    by_title = paragraphs_by_title(qa_path)
     titles = sorted(by_title)
     rng.shuffle(titles)
     out: list[NLIPair] = []
-    for title in titles:
-        if len(out) >= 3 * n_paragraphs:
+    #: up to this many paragraphs of one article, so that many articles are seen
+    per_title = 3
+    picks = [(title, para) for title in titles
+             for para in rng.sample(by_title[title], min(per_title, len(by_title[title])))]
+    rng.shuffle(picks)
+    used = 0
+    for title, para in picks:
+        if used >= n_paragraphs:
             break
         paras = by_title[title]
-        para = rng.choice(paras)
         sents = [x for x in _sentences(para) if 6 <= len(x.split()) <= 45]
         if len(para.split()) > 220 or not sents:
             continue
+        used += 1
         claim = rng.choice(sents)
         out.append(NLIPair(para, claim, 0, "qa_sentence"))
         for make in rng.sample([lambda c: _swap_number(c, rng), lambda c: _flip_negation(c, rng),
                                 lambda c: _swap_name(c, para, rng),
-                                lambda c: _swap_antonym(c, rng)], 4):
+                                lambda c: _swap_antonym(c, rng),
+                                lambda c: _reverse_comparison(c, rng)], 5):
             changed = make(claim)
             if changed and changed != claim:
                 out.append(NLIPair(para, changed, 1, "qa_changed"))
@@ -192,6 +229,76 @@ def synthetic_pairs(qa_path: Path, n_paragraphs: int, seed: int) -> list[NLIPair
                 extra = elsewhere[0].rstrip(".!?")
                 out.append(NLIPair(para, f"{claim.rstrip('.!? ')}, and {extra[0].lower()}{extra[1:]}.",
                                    2, "qa_added_clause"))
+    return out
+
+
+def _inflected_antonym(word: str) -> str | None:
+    """A WordNet antonym of ``word`` in ``word``'s form: "wider" -> "narrower", "rose" stays
+    unhandled (None) when the form cannot be rebuilt simply."""
+    from qacheck.opposites import antonyms
+
+    opp = sorted(a for a in antonyms(word) if "_" not in a)
+    if not opp:
+        return None
+    if opp[0] in antonyms(opp[0]) or word in antonyms(opp[0]):  # same form both ways
+        return opp[0]
+    for ending in ("er", "est", "ly", "ed", "s"):
+        if word.endswith(ending):
+            base = opp[0][:-1] if opp[0].endswith("e") and ending in ("er", "est", "ed") else opp[0]
+            return base + ending
+    return opp[0]
+
+
+def _swap_two_names(s: str, rng: random.Random) -> str | None:
+    """Two different names of one sentence trade places ("A beat B" -> "B beat A")."""
+    names = list(dict.fromkeys(n for n in _NAME.findall(s) if len(n) > 2))
+    if len(names) < 2:
+        return None
+    a, b = rng.sample(names, 2)
+    if a in b or b in a:
+        return None
+    return s.replace(a, "\x00").replace(b, a).replace("\x00", b)
+
+
+def contrast_pairs(qa_path: Path, n_paragraphs: int, seed: int) -> list[NLIPair]:
+    """Minimal pairs that questions cannot see, each beside its unchanged original.
+
+    For a sentence of a QA paragraph: a WordNet antonym put in its place in
+    the same form ("wider" -> "narrower"), a comparison reversed ("before" ->
+    "after"), two names swapped ("A beat B" -> "B beat A") or a negation
+    added or dropped is contradicted; the unchanged sentence is entailed.
+    Half the premises are the paragraph, half the sentence alone, so that the
+    reader cannot lean on length or on words the claim shares with the rest.
+    """
+    rng = random.Random(seed + 1)
+    by_title = paragraphs_by_title(qa_path)
+    paras = [p for ps in by_title.values() for p in ps if len(p.split()) <= 220]
+    rng.shuffle(paras)
+    out: list[NLIPair] = []
+
+    def antonym_edit(c: str) -> str | None:
+        words = [m for m in re.finditer(r"\b[a-z]{3,}\b", c)]
+        rng.shuffle(words)
+        for m in words[:8]:
+            opp = _inflected_antonym(m.group())
+            if opp:
+                return c[:m.start()] + opp + c[m.end():]
+        return None
+
+    edits = (antonym_edit, lambda c: _reverse_comparison(c, rng),
+             lambda c: _swap_two_names(c, rng), lambda c: _flip_negation(c, rng))
+    for para in paras[:n_paragraphs]:
+        sents = [x for x in _sentences(para) if 6 <= len(x.split()) <= 40]
+        if not sents:
+            continue
+        claim = rng.choice(sents)
+        for edit in rng.sample(edits, len(edits)):
+            changed = edit(claim)
+            if changed and changed != claim:
+                premise = para if rng.random() < 0.5 else claim
+                out.append(NLIPair(premise, claim, 0, "contrast_original"))
+                out.append(NLIPair(premise, changed, 1, "contrast_edit"))
+                break
     return out
 
 
@@ -233,7 +340,8 @@ def make_collate(feats: list[dict[str, Any]], pad_id: int):
 
 
 def train_nli(data: Path, out: Path, cfg: LoopConfig, limit: int | None = None,
-              qa_data: Path | None = None, synthetic: int = 15_000, base: str | None = None,
+              qa_data: Path | None = None, synthetic: int = 15_000, contrast: int = 0,
+              file_cap: int = PER_FILE_CAP, base: str | None = None,
               init: Path | None = None, log=print) -> dict[str, Any]:
     """Build the mix, train, and export a loadable model folder into ``out/model``.
 
@@ -247,8 +355,9 @@ def train_nli(data: Path, out: Path, cfg: LoopConfig, limit: int | None = None,
     start = str(init) if init else (base or base_model_path())
     tok = AutoTokenizer.from_pretrained(start)
     t0 = time.time()
-    train, held, used = published_pairs(Path(data), cfg.seed)
+    train, held, used = published_pairs(Path(data), cfg.seed, file_cap)
     built = synthetic_pairs(qa_data, synthetic, cfg.seed) if qa_data and synthetic else []
+    built += contrast_pairs(qa_data, contrast, cfg.seed) if qa_data and contrast else []
     built_train = [p for p in built if not heldout_premise(p.premise)]
     train += built_train
     random.Random(cfg.seed).shuffle(train)
@@ -268,8 +377,10 @@ def train_nli(data: Path, out: Path, cfg: LoopConfig, limit: int | None = None,
     from qacheck.models.lock import sha256_file
 
     return export_model(model, tok, out, {
-        "files_used": {name: sha256_file(Path(data) / f"{name}.jsonl.gz") for name in used}, "excluded_non_commercial": sorted(NON_COMMERCIAL),
-        "per_file_cap": PER_FILE_CAP, "skewed_caps": SKEWED_CAP, "pairs_per_source": counts,
+        "files_used": {name: sha256_file(Path(data) / f"{name}.jsonl.gz") for name in used},
+        "excluded_non_commercial": sorted(NON_COMMERCIAL),
+        "per_file_cap": file_cap, "skewed_caps": SKEWED_CAP, "contrast_paragraphs": contrast,
+        "pairs_per_source": counts,
         "built_from_qa_paragraphs": len(built_train), "qa_data": str(qa_data) if qa_data else None,
         "heldout": "premises whose sha256 falls in the lowest 5%", "max_len": MAX_LEN,
         "init": str(init) if init else None}, cfg, Path(qa_data or data), summary)
