@@ -212,7 +212,7 @@ def judge_sentence(s: SentenceResult, model: SentenceModel, thr: Thresholds) -> 
     nothing on its own.
     """
     feats = sentence_features(s)
-    p = model.predict_proba(feats)
+    p = round(model.predict_proba(feats), 4)  # the number shown is the number that decides
     cut = max(model.cut_, thr.sentence_floor)
     hit = _first_conflict(s.questions)
     if hit is not None:
@@ -220,21 +220,21 @@ def judge_sentence(s: SentenceResult, model: SentenceModel, thr: Thresholds) -> 
         why = (f'{_CONFLICT_WORDS[q.conflict]}: asked "{q.question}", the output answers '
                f'"{q.output_answer}", the source "{q.source_answer}" (a rule; flags of this kind '
                f'were right {model.conflict_precision_:.0%} of the time on development data)')
-        reason = Reason(q.conflict, why, round(p, 4), cut, hit,
+        reason = Reason(q.conflict, why, p, cut, hit,
                         f'source says "{q.source_answer}"')
-        return replace(s, score=round(p, 4), label="contradicted",
+        return replace(s, score=p, label="contradicted",
                        evidence={k: round(v, 4) for k, v in feats.items()}, reason=reason)
-    done = replace(s, score=round(p, 4),
+    done = replace(s, score=p,
                    evidence={k: round(v, 4) for k, v in feats.items()})
     if p >= cut:
         return replace(done, label="supported", reason=Reason(
-            "evidence", f"P(faithful) {p:.2f} at or above the cut {cut:.2f}", round(p, 4), cut))
+            "evidence", f"P(faithful) {p:.2f} at or above the cut {cut:.2f}", p, cut))
     fails = Counter(q.outcome for q in s.questions if q.outcome != "supported")
     label = ("contradicted" if fails["contradicted"] and fails["contradicted"] >= fails["unverifiable"]
              else "unverifiable")
     return replace(done, label=label, reason=Reason(
         "evidence", f"P(faithful) {p:.2f} under the cut {cut:.2f}: "
-        + _evidence_text(done, feats), round(p, 4), cut))
+        + _evidence_text(done, feats), p, cut))
 
 
 def judge(result: PairResult, model: SentenceModel, thr: Thresholds | None = None) -> PairResult:

@@ -129,13 +129,15 @@ class Checker:
     def _answer(self, items: list[tuple[str, str]]) -> list[Answer]:
         """QA answers to (question, context) items, each computed once per model and settings."""
         scope = json.dumps(["qa", self.qa.digest, self.qa.settings, self.qa.bf16], sort_keys=True)
-        return memoised(self.qa.answer, items, self.store, scope, asdict, lambda d: Answer(**d))
+        return memoised(_in_slices(self.qa.answer), items, self.store, scope, asdict,
+                        lambda d: Answer(**d))
 
     def _read(self, items: list[tuple[str, str]]) -> list[Reading]:
         """Entailment readings of (evidence, claim) items, each computed once per reader."""
         scope = json.dumps(["nli", self.nli.digest, self.nli.settings, self.nli.bf16],
                            sort_keys=True)
-        return memoised(self.nli.read, items, self.store, scope, asdict, lambda d: Reading(**d))
+        return memoised(_in_slices(self.nli.read), items, self.store, scope, asdict,
+                        lambda d: Reading(**d))
 
     def check(self, source: str, output: str) -> PairResult:
         """Check one (source, output) pair."""
@@ -255,6 +257,16 @@ class Checker:
             else:
                 failed.append(c)
         return kept, failed
+
+
+#: items per model call: a long output's questions are tokenised and read a slice at a time,
+#: so memory stays bounded whatever the output's length (answers do not depend on the batch)
+SLICE = 256
+
+
+def _in_slices(call: Callable[[list], list]) -> Callable[[list], list]:
+    """``call`` over ``SLICE`` items at a time, results in order."""
+    return lambda items: [r for i in range(0, len(items), SLICE) for r in call(items[i:i + SLICE])]
 
 
 def _in_source(answer: Answer, read: Passage, source: str) -> Answer:

@@ -62,3 +62,20 @@ def test_run_prints_a_terminal_view_not_markdown(tmp_path):
     scores = [float(line.split("P(faithful)")[1]) for line in listed.splitlines()
               if line.startswith("FAIL")]
     assert scores == sorted(scores)  # worst first
+
+
+def test_every_option_of_every_command_has_help_text():
+    import click
+
+    missing = []
+
+    def walk(cmd, path):
+        if isinstance(cmd, click.Group):
+            for name, sub in cmd.commands.items():
+                walk(sub, path + [name])
+            return
+        missing.extend(f"{' '.join(path)} {p.opts[0]}" for p in cmd.params
+                       if isinstance(p, click.Option) and not p.help and p.name != "help")
+
+    walk(main, ["qacheck"])
+    assert not missing, missing

@@ -188,3 +188,11 @@ def test_retrieval_puts_the_window_that_holds_the_claim_first():
     assert "ferry museum opens in May" in best.text
     assert all(len(w.text.split()) <= WINDOW_WORDS for w in windows(source))
     assert all(source[w.start:w.end] == w.text for w in windows(source))
+
+
+def test_the_number_in_the_reason_is_the_score_shown():
+    """Issue: "contradicted 0.74" was printed beside a reason quoting another number."""
+    r = _pair("The Harl ferry carries 40 cars and a brass band to Vorne every Sunday.",
+              [_q("supported", score=0.55)])
+    s = r.sentences[0]
+    assert s.reason.value == s.score and f"P(faithful) {s.score:.2f}" in s.reason.text

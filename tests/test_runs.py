@@ -174,7 +174,7 @@ def uninterrupted(tmp_path_factory) -> list[tuple[str, float, str]]:
 @pytest.mark.parametrize("sig, batch, after", [
     (signal.SIGKILL, 1, 3),   # between cases
     (signal.SIGINT, 1, 3),    # Ctrl-C
-    (signal.SIGKILL, 4, 0),   # inside the first batch of the set's 8 cases, nothing finished
+    (signal.SIGKILL, 8, 0),   # inside the one batch of the set's 8 cases, nothing finished
     (signal.SIGKILL, 4, 4),   # after a whole batch
 ])
 def test_killed_run_loses_nothing_and_resumes_to_same_results(tmp_path, uninterrupted, sig,

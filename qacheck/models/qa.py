@@ -131,18 +131,16 @@ class QAModel(LockedModel):
         e_m = np.where(ctx, e, -np.inf)
         starts = np.argsort(s_m)[::-1][: self.n_best]
         ends = np.argsort(e_m)[::-1][: self.n_best]
-        best = None
-        for i in starts:
-            if not ctx[i]:
-                continue
-            for j in ends:
-                if not ctx[j] or j < i or j - i + 1 > self.max_answer_tokens:
-                    continue
-                sc = float(s[i] + e[j])
-                if best is None or sc > best[0]:
-                    best = (sc, int(i), int(j))
-        if best is None:
+        # every (start, end) pair of the n best at once: a valid span lies inside the context,
+        # ends after it starts and is at most max_answer_tokens long
+        width = ends[None, :] - starts[:, None]
+        ok = (ctx[starts][:, None] & ctx[ends][None, :] & (width >= 0)
+              & (width < self.max_answer_tokens))
+        if not ok.any():
             return None
+        total = np.where(ok, s[starts][:, None] + e[ends][None, :], -np.inf)
+        r, c = np.unravel_index(int(np.argmax(total)), total.shape)  # first best, row-major
+        best = (float(total[r, c]), int(starts[r]), int(ends[c]))
         # probability of the chosen span under the window's start and end softmax
         ls = s - s.max()
         le = e - e.max()

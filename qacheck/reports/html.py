@@ -27,19 +27,23 @@ def _env():
     return env
 
 
-def source_pieces(pair, views) -> list[tuple[str, bool]]:
-    """The source cut into (text, is an answer) pieces: the source answers of the questions
-    the flagged-sentence views show are marked where they stand."""
-    spans = sorted({(q["source_start"], q["source_end"]) for v in views for q in v.questions
-                    if q.get("source_start") is not None and q.get("source_end") is not None})
-    out, at = [], 0
-    for a, b in spans:
-        if a < at:  # overlapping answers: the earlier mark holds
-            continue
-        out += [(pair.source[at:a], False), (pair.source[a:b], True)]
-        at = b
-    out.append((pair.source[at:], False))
-    return [p for p in out if p[0]]
+def source_pieces(pair, views) -> list[tuple[str, str]]:
+    """The source cut into (text, marks) pieces: ``ans`` where a source answer shown in the
+    views stands, ``ev`` inside the window the entailment reader judged a flagged sentence on.
+    """
+    flagged = {v.text for v in views}
+    marks: list[tuple[int, int, str]] = [
+        (q["source_start"], q["source_end"], "ans") for v in views for q in v.questions
+        if q.get("source_start") is not None and q.get("source_end") is not None]
+    marks += [(s.claim.start, s.claim.end, "ev") for s in pair.sentences
+              if s.claim is not None and s.text in flagged]
+    cuts = sorted({0, len(pair.source), *(a for a, _, _ in marks), *(b for _, b, _ in marks)})
+    out = []
+    for a, b in zip(cuts, cuts[1:]):
+        kinds = sorted({k for x, y, k in marks if x <= a and b <= y})
+        if b > a:
+            out.append((pair.source[a:b], " ".join(kinds)))
+    return out
 
 
 def histogram(scores: list[float], bins: int = 10) -> list[dict[str, Any]]:
