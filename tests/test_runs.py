@@ -277,3 +277,27 @@ def test_a_rerun_served_from_the_cache_loads_no_model_library(tmp_path):
     read = lambda d: [(r["id"], r["score"], r["status"]) for r in  # noqa: E731
                       map(json.loads, (tmp_path / d / "results.jsonl").read_text().splitlines())]
     assert read("warm") == read("cold")
+
+
+def test_the_html_report_of_a_large_set_shows_the_worst_cases_and_says_where_the_rest_are(
+        tmp_path):
+    import xml.etree.ElementTree as ET
+
+    from qacheck.reports.run import HTML_CASES, write_run_reports
+
+    n = HTML_CASES + 40
+    records = [{"id": f"case-{i}", "status": "fail" if i % 50 == 0 else "pass",
+                "score": round(0.5 + 0.4 * ((i * 7) % n) / n, 4), "label": "consistent",
+                "reasons": ["planted"] if i % 50 == 0 else [], "tags": [], "result": None}
+               for i in range(n)]
+    fails = sum(r["status"] == "fail" for r in records)
+    summary = {"set": "big", "outputs": "v1", "description": "", "cases": n,
+               "status": {"pass": n - fails, "fail": fails}, "mean_score": 0.7, "problems": [],
+               "seconds": 1.0, "signature": {"id": "x", "text": "signature x"}}
+    write_run_reports(tmp_path, summary, records)
+    page = (tmp_path / "report.html").read_text()
+    assert page.count('<tr data-status=') == HTML_CASES
+    assert f"{n - HTML_CASES} more, further down this order, are in results.jsonl" in page
+    # what did not pass is always on the page, and JUnit keeps every case
+    assert all(f'data-id="case-{i}"' in page for i in range(0, n, 50))
+    assert len(ET.parse(tmp_path / "junit.xml").getroot().findall("testcase")) == n
