@@ -207,10 +207,11 @@ def score(source, output, source_text, output_text, fmt, as_json, out, thr_file,
         if f == "json":
             _write(json.dumps(result.to_dict(), indent=2, ensure_ascii=False), path)
         elif f == "html":
-            from qacheck.reports.html import cut_of, render
+            from qacheck.reports.html import render
+            from qacheck.reports.views import cut_of
 
             _write(render("pair.html.j2", title="qacheck report", pair=result, verbose=verbose,
-                          cut=cut_of(result)), path)
+                          cut=cut_of(result.to_dict())), path)
         elif path:
             _write(_render_pair_text(result, verbose, 120), path)
         else:

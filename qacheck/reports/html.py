@@ -83,11 +83,6 @@ def scatter(points: list[tuple[str, float, float]], size: int = 320, pad: int = 
                        for i, a, b in points]}
 
 
-def cut_of(pair) -> float | None:
-    """The cut the pair's sentences were judged against (from their reasons)."""
-    return next((s.reason.cut for s in pair.sentences if s.reason is not None), None)
-
-
 def render(template: str, **context: Any) -> str:
     """Render a report template with the caution always present."""
     return _env().get_template(template).render(caution=CAUTION, **context)

@@ -4,9 +4,10 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
-from qacheck.reports.html import cut_of, histogram, render
+from qacheck.reports.html import histogram, render
 from qacheck.reports.junit import render_junit
 from qacheck.reports.markdown import render_run
+from qacheck.reports.views import cut_of
 from qacheck.results import FLAGGED, PairResult
 
 
@@ -31,8 +32,7 @@ def write_run_reports(folder: Path, summary: dict[str, Any], records: list[dict[
         cases.append({"record": r, "pair": pair, "rank": STATUS_RANK.get(r["status"], 9),
                       "flagged": sum(s.label in FLAGGED for s in pair.sentences) if pair else 0})
     scores = [r["score"] for r in records if r["score"] is not None]
-    cut = next((cut_of(c["pair"]) for c in cases if c["pair"] and cut_of(c["pair"]) is not None),
-               None)
+    cut = cut_of(*(r.get("result") for r in ordered))
     files = {
         "summary.md": render_run(summary, ordered, gate_messages),
         "junit.xml": render_junit(summary, records),

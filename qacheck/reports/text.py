@@ -7,7 +7,7 @@ from typing import Any
 from rich.console import Console
 from rich.markup import escape
 
-from qacheck.reports.views import marked_excerpt, sentence_views
+from qacheck.reports.views import cut_of, marked_excerpt, sentence_views
 from qacheck.results import CAUTION, FLAGGED, PairResult
 
 STYLE = {"supported": "green", "contradicted": "bold red", "unverifiable": "yellow",
@@ -28,8 +28,7 @@ def render_pair(result: PairResult, console: Console, verbose: bool = False) -> 
     """
     d = result.to_dict(include_texts=True)
     views = sentence_views(d, verbose)
-    cut = next((v.cut for v in views if v.cut is not None),
-               next((s.reason.cut for s in result.sentences if s.reason), None))
+    cut = cut_of(d)
     by_rule = sum(1 for x in result.sentences
                   if x.label in FLAGGED and x.reason and x.reason.rule != "evidence")
     rules = f"; {by_rule} flagged by a rule whatever the score" if by_rule else ""

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 from qacheck.reports.html import render, scatter
 from qacheck.reports.markdown import _md
+from qacheck.reports.views import cut_of
 from qacheck.results import CAUTION
 from qacheck.version_diff import Comparison, flagged
 
@@ -79,7 +80,6 @@ def render_markdown(c: Comparison) -> str:
 
 def render_html(c: Comparison) -> str:
     plot = scatter([(p["id"], p["score_a"], p["score_b"]) for p in c.pairs])
-    cut = next((s["reason"]["cut"] for p in c.pairs for s in (p["b"].get("result") or {})
-                .get("sentences", []) if s.get("reason")), None)
+    cut = cut_of(*(p["b"].get("result") for p in c.pairs))
     return render("compare.html.j2", title=f"qacheck compare: {c.set_name}", c=c,
                   figures=_figures(c), plot=plot, flagged=flagged, cut=cut)

@@ -31,6 +31,13 @@ class SentenceView:
     novel_words: list[str]
 
 
+def cut_of(*results: dict[str, Any] | None) -> float | None:
+    """The cut the sentences of these results were judged against (from their reasons), or
+    None when none was judged; every report shows it beside the scores."""
+    return next((s["reason"]["cut"] for r in results for s in (r or {}).get("sentences", [])
+                 if s.get("reason")), None)
+
+
 def marked_excerpt(source: str, start: int, end: int | None, width: int = 70
                    ) -> tuple[str, str, str]:
     """(before, answer, after): the stretch of source around an answer, the answer apart so
