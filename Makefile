@@ -16,7 +16,7 @@ test: $(STAMP)
 $(STAMP): pyproject.toml
 	$(PY) -m venv $(VENV)
 	$(VENV)/bin/pip install -q torch==2.13.0
-	$(VENV)/bin/pip install -q -e '.[train,eval,test]'
+	$(VENV)/bin/pip install -q -e '.[train,eval,test,ray]'
 	touch $@
 
 # optional, as root on Debian: WordNet 3.0 (opposite words) and chromium (the HTML report test)

@@ -12,6 +12,7 @@ from pathlib import Path
 
 import click
 from rich.console import Console
+from rich.markup import escape
 
 from qacheck import __version__
 from qacheck.errors import InputError, ModelIntegrityError, QacheckError
@@ -20,7 +21,8 @@ err = Console(stderr=True)
 
 
 def _fail(exc: QacheckError) -> None:
-    err.print(f"[bold red]error:[/] {exc}", markup=True, highlight=False)
+    # one line whatever the terminal width; the message's own brackets are text, not markup
+    err.print(f"[bold red]error:[/] {escape(str(exc))}", highlight=False, soft_wrap=True)
     sys.exit(2 if isinstance(exc, (InputError, ModelIntegrityError)) else 1)
 
 
@@ -245,14 +247,22 @@ def _open_cache(cache_path: str | None, no_cache: bool):
 @click.option("--tolerance", type=float, help="Allowed drop of the mean score [set.toml gate, else 0.02].")
 @click.option("--allow-signature-mismatch", is_flag=True,
               help="Gate against a baseline scored under another signature anyway.")
-@click.option("--workers", default=1, show_default=True, help="Scoring processes.")
+@click.option("--engine", type=click.Choice(["local", "ray"]), default="local", show_default=True,
+              help="Where new pairs are scored: this machine, or actors on a Ray cluster.")
+@click.option("--workers", default=1, show_default=True,
+              help="Scoring processes of the local engine.")
+@click.option("--ray-address", metavar="ADDR",
+              help="Ray cluster to join [default: $RAY_ADDRESS]; 'local' starts a private "
+                   "one-machine instance.")
+@click.option("--actors", type=click.IntRange(min=1),
+              help="Ray actors, one CPU and one model set each [default: the cluster's CPUs].")
 @click.option("--batch-size", default=1, show_default=True,
               help="Cases per model batch; each batch's results are on disk as it finishes.")
 @click.option("--cache", "cache_path", type=click.Path(dir_okay=False),
               help="Result cache file [default: $QACHECK_CACHE or ~/.cache/qacheck].")
 @click.option("--no-cache", is_flag=True, help="Do not read or write the result cache.")
-def run(set_dir, outputs, results_dir, baseline, tolerance, allow_signature_mismatch, workers,
-        batch_size, cache_path, no_cache) -> None:
+def run(set_dir, outputs, results_dir, baseline, tolerance, allow_signature_mismatch, engine,
+        workers, ray_address, actors, batch_size, cache_path, no_cache) -> None:
     """Score every case of a scenario SET; write results, summary, Markdown, JUnit and HTML.
 
     Exit 0 when all is well, 1 when a case fails or the baseline gate trips,
@@ -271,7 +281,18 @@ def run(set_dir, outputs, results_dir, baseline, tolerance, allow_signature_mism
     thr = Thresholds.shipped().merged(sset.thresholds, origin=str(Path(set_dir) / "set.toml"))
     folder = Path(results_dir or Path("results") / f"{Path(set_dir).name}-{sset.outputs_name}")
     _check_folder(folder, "results")
+    if engine != "ray" and (ray_address or actors):
+        raise InputError("--ray-address and --actors need --engine ray", field="--engine")
+    if engine == "ray" and workers != 1:
+        raise InputError("--workers is for the local engine; the Ray engine takes --actors",
+                         field="--workers")
     scorer = Scorer(thr, _open_cache(cache_path, no_cache), workers=workers, batch_size=batch_size)
+    if engine == "ray":
+        from qacheck.ray_engine import RayEngine
+
+        scorer.engine = RayEngine(thr, {"signature": scorer.signature["id"],
+                                        "evidence": scorer.checker.evidence_signature["id"]},
+                                  address=ray_address, actors=actors)
     columns = (TextColumn("[progress.description]{task.description}"), BarColumn(),
                MofNCompleteColumn(), TimeRemainingColumn())
     try:
@@ -283,17 +304,23 @@ def run(set_dir, outputs, results_dir, baseline, tolerance, allow_signature_mism
         err.print(f"[yellow]interrupted[/]: finished cases are saved in {folder}; "
                   "rerun the same command to resume")
         sys.exit(130)
+    finally:
+        scorer.engine.close()
+    if getattr(scorer.engine, "resubmitted", 0):
+        err.print(f"{scorer.engine.resubmitted} batches sent again after an actor or node was "
+                  "lost; each case is in the results once", highlight=False)
     messages, gate_ok = [], True
     if baseline:
         tol = tolerance if tolerance is not None else float(sset.gate.get("tolerance", 0.02))
-        g = gate(outcome.summary, outcome.records, Path(baseline), tol, allow_signature_mismatch)
+        g = gate(outcome.summary, outcome.tally.rows.values(), Path(baseline), tol,
+                 allow_signature_mismatch)
         messages, gate_ok = g.messages, g.ok
         if g.signature_mismatch:
             err.print(f"[bold red]WARNING: {messages[0]}[/]", highlight=False)
-    write_run_reports(folder, outcome.summary, outcome.records, messages if baseline else None)
+    write_run_reports(folder, outcome.summary, outcome.tally, messages if baseline else None)
     from qacheck.reports.text import render_run
 
-    render_run(outcome.summary, outcome.records, messages, gate_ok if baseline else None,
+    render_run(outcome.summary, outcome.tally.worst(), messages, gate_ok if baseline else None,
                str(folder), Console())
     failed = outcome.summary["status"].get("fail", 0) + outcome.summary["status"].get("error", 0)
     if sset.problems:
@@ -344,7 +371,7 @@ def _score_outputs(set_dir: str, outputs: str) -> Path:
     thr = Thresholds.shipped().merged(sset.thresholds, origin=str(Path(set_dir) / "set.toml"))
     folder = Path("results") / f"{Path(set_dir).name}-{sset.outputs_name}"
     outcome = run_set(sset, folder, Scorer(thr, ResultCache()))
-    write_run_reports(folder, outcome.summary, outcome.records)
+    write_run_reports(folder, outcome.summary, outcome.tally)
     return folder
 
 

@@ -10,18 +10,19 @@ import json
 import multiprocessing
 import os
 import time
-from collections.abc import Callable, Iterator
-from concurrent.futures import ProcessPoolExecutor
+from collections.abc import Callable, Iterable, Iterator
+from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 from contextlib import contextmanager
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import Any, Protocol
 
 from qacheck.cache import ResultCache, cache_key
 from qacheck.config import Thresholds
 from qacheck.errors import InputError
 from qacheck.results import FLAGGED
 from qacheck.scenarios import Case, ScenarioSet
+from qacheck.tally import CaseRow, RunTally
 
 RESULTS_FILE = "results.jsonl"
 SUMMARY_FILE = "summary.json"
@@ -54,7 +55,35 @@ def case_status(case: Case, result: dict[str, Any] | None) -> tuple[str, list[st
     return ("fail" if reasons else "pass"), reasons
 
 
-# --- scoring with cache and workers ---------------------------------------------------
+# --- scoring with cache and an engine -------------------------------------------------
+
+#: batches in flight per worker or actor: one being scored, one waiting, so none sits idle
+IN_FLIGHT = 2
+
+Batch = tuple[int, list[tuple[str, str]]]
+
+
+class Engine(Protocol):
+    """Where new pairs are scored: batches in, (batch id, results) out, in any order."""
+
+    def results(self, batches: Iterator[Batch]) -> Iterator[tuple[int, list[dict[str, Any]]]]: ...
+
+    def close(self) -> None: ...
+
+
+class InProcess:
+    """Scores batches in this process with the scorer's own checker."""
+
+    def __init__(self, checker) -> None:
+        self.checker = checker
+
+    def close(self) -> None:
+        """Nothing to release: the checker lives as long as the scorer."""
+
+    def results(self, batches: Iterator[Batch]) -> Iterator[tuple[int, list[dict[str, Any]]]]:
+        for bid, pairs in batches:
+            yield bid, [r.to_dict(include_texts=True) for r in self.checker.check_many(pairs)]
+
 
 _WORKER = None
 
@@ -74,22 +103,57 @@ def _worker_score(pairs: list[tuple[str, str]]) -> list[dict[str, Any]]:
     return [r.to_dict(include_texts=True) for r in _WORKER.check_many(pairs)]
 
 
-class Scorer:
-    """Scores pairs through the cache; new pairs go to the checker in batches.
+class ProcessPool:
+    """``workers`` local processes, each with its own models and an equal share of the CPU
+    threads; at most ``IN_FLIGHT`` batches per process are queued at any time."""
 
-    ``workers`` > 1 starts that many processes, each with its own models and
-    an equal share of the CPU threads.
+    def __init__(self, thresholds: Thresholds, workers: int, cache: ResultCache | None) -> None:
+        self.thresholds, self.workers, self.cache = thresholds, workers, cache
+
+    def close(self) -> None:
+        """Nothing to release: the pool ends with each ``results`` call."""
+
+    def results(self, batches: Iterator[Batch]) -> Iterator[tuple[int, list[dict[str, Any]]]]:
+        threads = max(1, (os.cpu_count() or 1) // self.workers)
+        # spawn, not fork: forking a process whose OpenMP threads are running can hang
+        with ProcessPoolExecutor(self.workers, mp_context=multiprocessing.get_context("spawn"),
+                                 initializer=_worker_init,
+                                 initargs=(self.thresholds.as_dict(), threads,
+                                           str(self.cache.path) if self.cache else None)) as pool:
+            running: dict[Any, int] = {}
+            for bid, pairs in batches:
+                running[pool.submit(_worker_score, pairs)] = bid
+                if len(running) >= self.workers * IN_FLIGHT:
+                    yield from self._finished(running)
+            while running:
+                yield from self._finished(running)
+
+    @staticmethod
+    def _finished(running: dict[Any, int]) -> Iterator[tuple[int, list[dict[str, Any]]]]:
+        done, _ = wait(running, return_when=FIRST_COMPLETED)
+        for fut in done:
+            yield running.pop(fut), fut.result()
+
+
+class Scorer:
+    """Scores pairs through the cache; new pairs go to an engine in batches.
+
+    The engine is this process (``workers`` 1), a pool of local processes
+    (``workers`` > 1) or any object with the same ``results`` method (the Ray
+    engine in ``qacheck.ray_engine``).  Only this object writes the cache.
     """
 
     def __init__(self, thresholds: Thresholds, cache: ResultCache | None, workers: int = 1,
-                 batch_size: int = 1, checker=None) -> None:
+                 batch_size: int = 1, checker=None, engine: Engine | None = None) -> None:
         from qacheck.pipeline import Checker
 
         self.thresholds = thresholds
         self.checker = checker or Checker(thresholds, store=cache)
-        self.cache, self.workers, self.batch_size = cache, max(1, workers), batch_size
+        self.cache, self.batch_size = cache, max(1, batch_size)
         self.model = self.checker.model
         self.signature = self.checker.signature
+        self.engine = engine or (InProcess(self.checker) if workers <= 1
+                                 else ProcessPool(thresholds, workers, cache))
 
     def key(self, source: str, output: str) -> str:
         """The cache key: the texts and everything that shapes the answers, not the judging."""
@@ -113,25 +177,13 @@ class Scorer:
                 yield i, self._rejudged(hit)
             else:
                 todo.append(i)
-        batches = [todo[b:b + self.batch_size] for b in range(0, len(todo), self.batch_size)]
-        if self.workers == 1:
-            done = ((idx, [r.to_dict(include_texts=True)
-                           for r in self.checker.check_many([pairs[i] for i in idx])])
-                    for idx in batches)
-            yield from self._store(done, pairs)
-            return
-        threads = max(1, (os.cpu_count() or 1) // self.workers)
-        # spawn, not fork: forking a process whose OpenMP threads are running can hang
-        with ProcessPoolExecutor(self.workers, mp_context=multiprocessing.get_context("spawn"),
-                                 initializer=_worker_init,
-                                 initargs=(self.thresholds.as_dict(), threads,
-                                           str(self.cache.path) if self.cache else None)) as pool:
-            futures = [(idx, pool.submit(_worker_score, [pairs[i] for i in idx])) for idx in batches]
-            yield from self._store(((idx, f.result()) for idx, f in futures), pairs)
-
-    def _store(self, done, pairs):
-        for idx, results in done:
-            for i, res in zip(idx, results):
+        chunks = [todo[b:b + self.batch_size] for b in range(0, len(todo), self.batch_size)]
+        batches = ((bid, [pairs[i] for i in idx]) for bid, idx in enumerate(chunks))
+        for bid, results in self.engine.results(batches):
+            if len(results) != len(chunks[bid]):
+                raise RuntimeError(f"batch {bid}: {len(results)} results for "
+                                   f"{len(chunks[bid])} pairs")
+            for i, res in zip(chunks[bid], results):
                 if self.cache:
                     self.cache.put(self.key(*pairs[i]), res)
                 yield i, res
@@ -141,37 +193,42 @@ class Scorer:
 
 @dataclass
 class RunOutcome:
+    """The summary of a finished run and what it kept of its cases (``qacheck.tally``)."""
+
     summary: dict[str, Any]
-    records: list[dict[str, Any]] = field(default_factory=list)
+    tally: RunTally
 
 
-def _read_results(path: Path) -> list[dict[str, Any]]:
-    """Valid result lines of a results file; a torn last line (killed run) is dropped."""
+def iter_results(path: Path) -> Iterator[dict[str, Any]]:
+    """Valid result lines of a results file, read one at a time; a torn last line (killed run)
+    is skipped."""
     if not path.exists():
-        return []
-    rows = []
-    for line in path.read_text(encoding="utf-8", errors="replace").splitlines():
-        try:
-            rec = json.loads(line)
-        except json.JSONDecodeError:
-            continue
-        if isinstance(rec, dict) and "id" in rec:
-            rows.append(rec)
-    return rows
+        return
+    with open(path, encoding="utf-8", errors="replace") as fh:
+        for line in fh:
+            try:
+                rec = json.loads(line)
+            except json.JSONDecodeError:
+                continue
+            if isinstance(rec, dict) and "id" in rec:
+                yield rec
 
 
-def load_results(folder: str | Path) -> tuple[dict[str, Any], list[dict[str, Any]]]:
-    """(summary, records) of a finished results folder, with clear errors when it is not one."""
-    folder = Path(folder)
+def _read_summary(folder: Path) -> dict[str, Any]:
     summary_path = folder / SUMMARY_FILE
     if not summary_path.exists():
         raise InputError("not a results folder (no summary.json): run `qacheck run` first",
                          path=folder)
     try:
-        summary = json.loads(summary_path.read_text(encoding="utf-8"))
+        return json.loads(summary_path.read_text(encoding="utf-8"))
     except json.JSONDecodeError as exc:
         raise InputError(f"not valid JSON ({exc.msg})", path=summary_path, line=exc.lineno) from exc
-    return summary, _read_results(folder / RESULTS_FILE)
+
+
+def load_results(folder: str | Path) -> tuple[dict[str, Any], list[dict[str, Any]]]:
+    """(summary, records) of a finished results folder, with clear errors when it is not one."""
+    folder = Path(folder)
+    return _read_summary(folder), list(iter_results(folder / RESULTS_FILE))
 
 
 @contextmanager
@@ -212,79 +269,86 @@ def run_set(sset: ScenarioSet, results_dir: Path, scorer: Scorer,
 
     The folder is locked for the run.  A case kept from an earlier run keeps
     its stored verdict, but its status is derived again from the current
-    expectations.
+    expectations.  junit.xml is written as the cases arrive; the other
+    reports come from the returned tally (``qacheck.reports.run``).
     """
+    from qacheck.reports.junit import JUnitStream
+
     results_dir.mkdir(parents=True, exist_ok=True)
     with folder_lock(results_dir):
-        return _run_locked(sset, results_dir, scorer, progress)
+        junit = JUnitStream(results_dir, sset.name)
+        try:
+            outcome = _run_locked(sset, results_dir, scorer, progress, RunTally(sinks=(junit,)))
+        except BaseException:
+            junit.discard()
+            raise
+        junit.close(outcome.summary)
+        return outcome
+
+
+def _record(case: Case, key: str, result: dict[str, Any] | None) -> dict[str, Any]:
+    """The results.jsonl line of a case: its status under the current expectations and its result."""
+    status, reasons = case_status(case, result)
+    return {"id": case.id, "key": key, "status": status, "reasons": reasons,
+            "score": result["score"] if result else None,
+            "label": result["label"] if result else None, "tags": case.tags,
+            "expect": case.expect, "result": result}
 
 
 def _run_locked(sset: ScenarioSet, results_dir: Path, scorer: Scorer,
-                progress: Callable[[int, int], None] | None) -> RunOutcome:
+                progress: Callable[[int, int], None] | None, tally: RunTally) -> RunOutcome:
     path = results_dir / RESULTS_FILE
     keys = {c.id: scorer.key(c.source, c.output or "") for c in sset.cases}
     by_id = {c.id: c for c in sset.cases}
-    previous = {}
-    for r in _read_results(path):
-        if r.get("key") == keys.get(r["id"]) and r.get("result") is not None:
-            status, reasons = case_status(by_id[r["id"]], r["result"])
-            previous[r["id"]] = {**r, "status": status, "reasons": reasons,
-                                 "expect": by_id[r["id"]].expect}
-    _write_atomic(path, "".join(json.dumps(previous[c.id], ensure_ascii=False) + "\n"
-                                for c in sset.cases if c.id in previous))
+    # resume: keep, one line at a time, the earlier results whose key still matches
+    kept = path.with_name(f".{path.name}.{os.getpid()}.tmp")
+    with open(kept, "w", encoding="utf-8") as out:
+        for r in iter_results(path):
+            case = by_id.get(r["id"])
+            if (case is None or r["id"] in tally.rows or r.get("key") != keys[r["id"]]
+                    or r.get("result") is None):
+                continue
+            rec = _record(case, keys[case.id], r["result"])
+            out.write(json.dumps(rec, ensure_ascii=False) + "\n")
+            tally.add(rec)
+        out.flush()
+        os.fsync(out.fileno())
+    os.replace(kept, path)
     t0 = time.time()
-    records = {cid: previous[cid] for cid in previous}
-    done = len(records)
     total = len(sset.cases)
     if progress:
-        progress(done, total)
+        progress(len(tally.rows), total)
     with open(path, "a", encoding="utf-8") as fh:
         def write(rec: dict[str, Any]) -> None:
-            nonlocal done
             fh.write(json.dumps(rec, ensure_ascii=False) + "\n")
             fh.flush()
             os.fsync(fh.fileno())
-            records[rec["id"]] = rec
-            done += 1
+            tally.add(rec)
             if progress:
-                progress(done, total)
+                progress(len(tally.rows), total)
 
-        todo = [c for c in sset.cases if c.id not in records]
+        todo = [c for c in sset.cases if c.id not in tally.rows]
         for c in todo:
             if c.error:
-                status, reasons = case_status(c, None)
-                write({"id": c.id, "key": keys[c.id], "status": status, "reasons": reasons,
-                       "score": None, "label": None, "tags": c.tags, "result": None})
+                write(_record(c, keys[c.id], None))
         scoreable = [c for c in todo if not c.error]
         for i, res in scorer.score([(c.source, c.output) for c in scoreable]):
-            c = scoreable[i]
-            status, reasons = case_status(c, res)
-            write({"id": c.id, "key": keys[c.id], "status": status, "reasons": reasons,
-                   "score": res["score"], "label": res["label"], "tags": c.tags,
-                   "expect": c.expect, "result": res})
-    ordered = [records[c.id] for c in sset.cases if c.id in records]
-    summary = summarise(sset, ordered, scorer.signature, time.time() - t0)
+            write(_record(scoreable[i], keys[scoreable[i].id], res))
+    summary = summarise(sset, tally, scorer.signature, time.time() - t0)
     _write_atomic(results_dir / SUMMARY_FILE, json.dumps(summary, indent=2, ensure_ascii=False))
-    return RunOutcome(summary, ordered)
+    return RunOutcome(summary, tally)
 
 
-def summarise(sset: ScenarioSet, records: list[dict[str, Any]], signature: dict[str, Any],
+def summarise(sset: ScenarioSet, tally: RunTally, signature: dict[str, Any],
               seconds: float) -> dict[str, Any]:
     """Set-level figures: counts by status, mean score, flagged sentences, input problems."""
-    scores = [r["score"] for r in records if r["score"] is not None]
-    status_counts: dict[str, int] = {}
-    sentence_counts: dict[str, int] = {}
-    for r in records:
-        status_counts[r["status"]] = status_counts.get(r["status"], 0) + 1
-        for s in (r["result"] or {}).get("sentences", []):
-            sentence_counts[s["label"]] = sentence_counts.get(s["label"], 0) + 1
     return {
         "set": sset.name, "description": sset.description, "outputs": sset.outputs_name,
         "set_folder": str(sset.folder), "signature": signature,
-        "cases": len(records), "status": status_counts, "sentences": sentence_counts,
-        "mean_score": sum(scores) / len(scores) if scores else None,
+        "cases": len(tally.rows), "status": dict(tally.status),
+        "sentences": dict(tally.sentences), "mean_score": tally.mean_score,
         "problems": [str(p) for p in sset.problems], "seconds": round(seconds, 2),
-        "warned_cases": [r["id"] for r in records if (r["result"] or {}).get("warnings")],
+        "warned_cases": tally.warned,
     }
 
 
@@ -295,14 +359,17 @@ class GateResult:
     ok: bool
     signature_mismatch: bool
     mean_drop: float | None
-    newly_failing: list[dict[str, Any]]
+    newly_failing: list[CaseRow]
     messages: list[str]
 
 
-def gate(current: dict[str, Any], records: list[dict[str, Any]], baseline_dir: Path,
+def gate(current: dict[str, Any], rows: Iterable[CaseRow], baseline_dir: Path,
          tolerance: float, allow_mismatch: bool) -> GateResult:
-    """Compare a run with a baseline run: mean-score drop and cases that passed before."""
-    base_summary, base_records = load_results(baseline_dir)
+    """Compare a run with a baseline run: mean-score drop and cases that passed before.
+
+    Both sides are read as rows (id, status, score), the baseline one line at a time.
+    """
+    base_summary = _read_summary(baseline_dir)
     msgs = []
     mismatch = base_summary["signature"]["id"] != current["signature"]["id"]
     if mismatch:
@@ -314,17 +381,18 @@ def gate(current: dict[str, Any], records: list[dict[str, Any]], baseline_dir: P
             raise InputError("refusing to compare runs with different signatures "
                              "(pass --allow-signature-mismatch to compare anyway): " + msgs[0],
                              path=baseline_dir)
-    before = {r["id"]: r for r in base_records}
-    now = {r["id"]: r for r in records}
-    both = [cid for cid in now if cid in before and now[cid]["score"] is not None
-            and before[cid]["score"] is not None]
+    before = {r["id"]: CaseRow(r["id"], r["status"], r["score"])
+              for r in iter_results(baseline_dir / RESULTS_FILE)}
+    now = list(rows)
+    both = [(before[r.id], r) for r in now if r.id in before and r.score is not None
+            and before[r.id].score is not None]
     drop = None
     if both:
         # the same cases on both sides: a mean over different subsets would compare nothing
-        drop = (sum(before[c]["score"] for c in both) - sum(now[c]["score"] for c in both)) / len(both)
-    newly = [r for r in records if r["status"] in ("fail", "error", "unscored")
-             and before.get(r["id"], {}).get("status") == "pass"]
-    nothing = not any(r["score"] is not None for r in records)
+        drop = sum(b.score - n.score for b, n in both) / len(both)
+    newly = [r for r in now if r.status in ("fail", "error", "unscored")
+             and r.id in before and before[r.id].status == "pass"]
+    nothing = not any(r.score is not None for r in now)
     ok = not newly and not nothing and (drop is None or drop <= tolerance)
     if nothing:
         msgs.append("no case was scored in this run: nothing to compare, the gate fails")
@@ -333,5 +401,5 @@ def gate(current: dict[str, Any], records: list[dict[str, Any]], baseline_dir: P
                     f"{drop:.3f} (tolerance {tolerance:.3f})")
     for r in newly:
         # the evidence (flagged sentences, rules, fixes) is listed with the case in every report
-        msgs.append(f"regression: case {r['id']} passed in the baseline, now {r['status']}")
+        msgs.append(f"regression: case {r.id} passed in the baseline, now {r.status}")
     return GateResult(ok, mismatch, drop, newly, msgs)

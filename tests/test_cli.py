@@ -79,3 +79,21 @@ def test_every_option_of_every_command_has_help_text():
 
     walk(main, ["qacheck"])
     assert not missing, missing
+
+
+def test_the_precision_mode_can_be_forced_and_a_bad_one_is_one_error_line(monkeypatch, tmp_path):
+    """A cluster of mixed CPUs agrees only when every node runs one mode: QACHECK_PRECISION."""
+    from qacheck.models.runtime import cpu_has_bf16, use_bf16
+
+    monkeypatch.setenv("QACHECK_PRECISION", "fp32")
+    assert use_bf16() is False
+    monkeypatch.setenv("QACHECK_PRECISION", "BF16")
+    assert use_bf16() is True
+    monkeypatch.setenv("QACHECK_PRECISION", "auto")
+    assert use_bf16() is cpu_has_bf16()
+    monkeypatch.setenv("QACHECK_PRECISION", "fp64")
+    res = CliRunner().invoke(main, ["score", "--source-text", "The quay opened in 1990.",
+                                    "--output-text", "The quay opened in 1990.", "--no-cache"])
+    assert res.exit_code == 2
+    assert res.output.strip().splitlines() == [
+        "error: $QACHECK_PRECISION must be auto, bf16 or fp32, not 'fp64'"]

@@ -124,14 +124,15 @@ def test_a_resumed_run_derives_status_from_the_current_expectations(tmp_path):
 
     d = _set(tmp_path, 'name = "x"\n')
     first = run_set(load_set(d, "writer-v1"), tmp_path / "out", _FakeScorer())
-    assert {r["status"] for r in first.records} == {"pass"}
+    assert {r.status for r in first.tally.rows.values()} == {"pass"}
     lines = [json.loads(x) for x in (d / "cases.jsonl").read_text().splitlines()]
     lines[0]["expect"] = {"min_score": 0.9}
     (d / "cases.jsonl").write_text("\n".join(json.dumps(x) for x in lines) + "\n")
     again = _FakeScorer()
     second = run_set(load_set(d, "writer-v1"), tmp_path / "out", again)
     assert again.scored == 0  # nothing rescored
-    assert second.records[0]["status"] == "fail" and "min_score" in second.records[0]["reasons"][0]
+    worst = second.tally.worst()[0]
+    assert worst["status"] == "fail" and "min_score" in worst["reasons"][0]
 
 
 def test_one_run_per_results_folder(tmp_path):
@@ -158,19 +159,25 @@ def _rec(cid, status, score):
     return {"id": cid, "status": status, "score": score, "reasons": [f"{status} reason"]}
 
 
+def _row(cid, status, score):
+    from qacheck.tally import CaseRow
+
+    return CaseRow(cid, status, score)
+
+
 def test_gate_fails_when_nothing_was_scored_and_pairs_cases_by_id(tmp_path):
     from qacheck.runner import gate
 
     base = _baseline(tmp_path / "base", [_rec("a", "pass", 0.9), _rec("b", "pass", 0.5)])
     current = {"signature": {"id": "fake", "text": "signature fake"}}
-    unscored = [_rec("a", "unscored", None), _rec("b", "unscored", None)]
+    unscored = [_row("a", "unscored", None), _row("b", "unscored", None)]
     g = gate(current, unscored, base, 0.03, False)
     assert not g.ok and any("no case was scored" in m for m in g.messages)
-    assert {r["id"] for r in g.newly_failing} == {"a", "b"}  # pass -> unscored is a regression
+    assert {r.id for r in g.newly_failing} == {"a", "b"}  # pass -> unscored is a regression
     # only case b is scored now, at its old score: the mean over shared cases did not drop,
     # although the mean over all scored cases fell from 0.7 to 0.5
-    g = gate(current, [_rec("a", "error", None), _rec("b", "pass", 0.5)], base, 0.03, False)
-    assert g.mean_drop == 0.0 and [r["id"] for r in g.newly_failing] == ["a"]
+    g = gate(current, [_row("a", "error", None), _row("b", "pass", 0.5)], base, 0.03, False)
+    assert g.mean_drop == 0.0 and [r.id for r in g.newly_failing] == ["a"]
 
 
 @pytest.mark.parametrize("text,english", [

@@ -10,7 +10,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from qacheck.models.base import LockedModel
-from qacheck.models.runtime import PAD_MULTIPLE, ROWS, autocast, cpu_has_bf16, fixed_shape_batches
+from qacheck.models.runtime import PAD_MULTIPLE, ROWS, autocast, use_bf16, fixed_shape_batches
 
 #: the evidence window plus the claim are cut to this many word pieces (evidence first)
 MAX_TOKENS = 256
@@ -33,7 +33,7 @@ class NLIModel(LockedModel):
     def __init__(self, folder: Path | None = None, *, verify: bool = True,
                  bf16: bool | None = None) -> None:
         super().__init__(folder, verify)
-        self.bf16 = cpu_has_bf16() if bf16 is None else bf16
+        self.bf16 = use_bf16() if bf16 is None else bf16
 
     @staticmethod
     def available() -> bool:

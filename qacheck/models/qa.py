@@ -14,7 +14,7 @@ from pathlib import Path
 
 import numpy as np
 from qacheck.models.base import LockedModel
-from qacheck.models.runtime import PAD_MULTIPLE, ROWS, autocast, cpu_has_bf16, fixed_shape_batches
+from qacheck.models.runtime import PAD_MULTIPLE, ROWS, autocast, use_bf16, fixed_shape_batches
 
 
 @dataclass(frozen=True)
@@ -59,7 +59,7 @@ class QAModel(LockedModel):
         super().__init__(folder, verify)
         self.max_len, self.stride = max_len, stride
         self.max_answer_tokens, self.n_best = max_answer_tokens, n_best
-        self.bf16 = cpu_has_bf16() if bf16 is None else bf16
+        self.bf16 = use_bf16() if bf16 is None else bf16
 
     @property
     def settings(self) -> dict[str, int | bool]:

@@ -5,7 +5,7 @@ from pathlib import Path
 
 from qacheck.models import lock
 from qacheck.models.base import LockedModel
-from qacheck.models.runtime import autocast, cpu_has_bf16
+from qacheck.models.runtime import autocast, use_bf16
 from qacheck.qg_format import qg_input
 
 #: the drafter reads at most this many word pieces of its (sentence, span) input
@@ -21,7 +21,7 @@ class QGModel(LockedModel):
                  max_new_tokens: int = 32, batch_size: int = 32, bf16: bool | None = None) -> None:
         super().__init__(folder, verify)
         self.num_beams, self.max_new_tokens, self.batch_size = num_beams, max_new_tokens, batch_size
-        self.bf16 = cpu_has_bf16() if bf16 is None else bf16
+        self.bf16 = use_bf16() if bf16 is None else bf16
 
     @staticmethod
     def available() -> bool:

@@ -6,7 +6,10 @@ never loads it.
 from __future__ import annotations
 
 import contextlib
+import os
 from functools import lru_cache
+
+from qacheck.errors import InputError
 
 
 @lru_cache(maxsize=1)
@@ -24,11 +27,28 @@ def cpu_has_bf16() -> bool:
     return "avx512_bf16" in flags or "amx_bf16" in flags
 
 
+#: ``QACHECK_PRECISION``: ``bf16`` or ``fp32`` forces the mode, ``auto`` (or unset) asks the CPU
+PRECISION_ENV = "QACHECK_PRECISION"
+
+
+def use_bf16() -> bool:
+    """The precision every model runs in: ``$QACHECK_PRECISION`` if set, else the CPU's best.
+
+    The mode changes answers in the last decimals, so it is part of the
+    signature; machines of one cluster with different CPUs agree only when
+    the mode is forced the same on all of them.
+    """
+    mode = os.environ.get(PRECISION_ENV, "auto").strip().lower() or "auto"
+    if mode not in ("auto", "bf16", "fp32"):
+        raise InputError(f"${PRECISION_ENV} must be auto, bf16 or fp32, not {mode!r}")
+    return cpu_has_bf16() if mode == "auto" else mode == "bf16"
+
+
 def autocast(enabled: bool | None = None):
-    """bf16 autocast where it pays, a no-op context otherwise."""
+    """bf16 autocast when ``enabled`` (default: ``use_bf16()``), a no-op context otherwise."""
     import torch
 
-    use = cpu_has_bf16() if enabled is None else enabled
+    use = use_bf16() if enabled is None else enabled
     return torch.autocast("cpu", dtype=torch.bfloat16) if use else contextlib.nullcontext()
 
 

@@ -23,8 +23,12 @@ def _md(text: str) -> str:
 
 
 def render_run(summary: dict[str, Any], records: list[dict[str, Any]],
-               gate_messages: list[str] | None = None) -> str:
-    """A run summary: totals, failing cases with their flagged sentences, signature."""
+               gate_messages: list[str] | None = None, left_out: int = 0) -> str:
+    """A run summary: totals, failing cases with their flagged sentences, signature.
+
+    ``records`` are the cases kept whole, worst first (all of a small run);
+    ``left_out`` counts the others, which are only in results.jsonl and junit.xml.
+    """
     st = summary["status"]
     out = [f"## qacheck: {_md(summary['set'])} / {_md(summary['outputs'])}", "",
            f"**{st.get('pass', 0)} passed, {st.get('fail', 0)} failed, {st.get('error', 0)} errors, "
@@ -37,8 +41,12 @@ def render_run(summary: dict[str, Any], records: list[dict[str, Any]],
     else:
         out += ["Regression gate: passed, no regression against the baseline.", ""]
     bad = [r for r in records if r["status"] in ("fail", "error", "unscored")]
-    if not bad:
+    not_passed = sum(st.get(k, 0) for k in ("fail", "error", "unscored"))
+    if not not_passed:
         out += ["Cases that did not pass: none.", ""]
+    elif not_passed > len(bad):
+        out += [f"Cases that did not pass, worst first: {len(bad)} listed here, "
+                f"{not_passed - len(bad)} more in results.jsonl and junit.xml.", ""]
     if bad:
         out += ["| case | status | score | why |", "|---|---|---|---|"]
         out += [f"| {_md(r['id'])} | {r['status']} | {_f(r['score'])} | {_md('; '.join(r['reasons']))} |"
@@ -54,10 +62,11 @@ def render_run(summary: dict[str, Any], records: list[dict[str, Any]],
                     if v.suggestion:
                         out.append(f"  - fix: {_md(v.suggestion)}")
                 out.append("\n</details>\n")
-    warned = [r for r in records if (r.get("result") or {}).get("warnings")]
-    if warned:
-        out += ["### Warnings", ""] + [f"- {_md(r['id'])}: {_md(w)}" for r in warned
-                                       for w in r["result"]["warnings"]] + [""]
+    texts = {r["id"]: r["result"]["warnings"] for r in records
+             if (r.get("result") or {}).get("warnings")}
+    if summary.get("warned_cases"):
+        out += ["### Warnings", ""] + [f"- {_md(cid)}: {_md(w)}" for cid in summary["warned_cases"]
+                                       for w in texts.get(cid, ["see its result"])] + [""]
     if summary["problems"]:
         out += ["### Input problems", ""] + [f"- {_md(p)}" for p in summary["problems"]] + [""]
     out += [f"<sub>{summary['signature']['text']}. "

@@ -71,15 +71,21 @@ CASE_MARK = {"fail": ("FAIL", "bold red"), "error": ("ERROR", "bold magenta"),
              "unscored": ("UNSCORED", "yellow"), "pass": ("pass", "green")}
 
 
+#: the terminal lists at most this many cases that did not pass; the reports list more
+TERMINAL_CASES = 25
+
+
 def render_run(summary: dict[str, Any], records: list[dict[str, Any]],
                gate_messages: list[str] | None, gate_ok: bool | None, folder: str,
                console: Console) -> None:
     """The terminal view of a run: totals, the gate's decision, then what failed, worst first.
 
-    Failing, errored and unscored cases are listed (lowest score first) with
-    each flagged sentence, the rule that flagged it, the deciding number and
-    the source's value as a fix; passing cases are only counted.  Plain
-    lines, no tables, so the view reads the same at 80 columns and in a CI log.
+    ``records`` are the cases the run kept whole, worst first
+    (``qacheck.tally.worst_first``); those that did not pass are listed in
+    that order (at most ``TERMINAL_CASES``) with each flagged sentence, the
+    rule that flagged it, the deciding number and the source's value as a fix; passing
+    cases are only counted.  Plain lines, no tables, so the view reads the
+    same at 80 columns and in a CI log.
     """
     st = summary["status"]
     mean = summary["mean_score"]
@@ -95,12 +101,11 @@ def render_run(summary: dict[str, Any], records: list[dict[str, Any]],
         console.print(f"gate: {word}", highlight=False)
         for m in gate_messages or []:
             console.print(f"  - {escape(m)}", highlight=False)
-    bad = sorted((r for r in records if r["status"] != "pass"),
-                 key=lambda r: (r["status"] != "error", r["score"] if r["score"] is not None
-                                else -1.0, r["id"]))
-    console.print(f"\n[bold]cases that did not pass[/] ({len(bad)})" if bad else
+    bad = [r for r in records if r["status"] != "pass"]
+    not_passed = sum(st.get(k, 0) for k in ("fail", "error", "unscored"))
+    console.print(f"\n[bold]cases that did not pass[/] ({not_passed})" if not_passed else
                   "\ncases that did not pass: none", highlight=False)
-    for r in bad:
+    for r in bad[:TERMINAL_CASES]:
         word, style = CASE_MARK.get(r["status"], (r["status"], "bold"))
         console.print(f"[{style}]{word}[/] {escape(r['id'])}  P(faithful) {_fmt(r['score'])}",
                       highlight=False)
@@ -112,6 +117,10 @@ def render_run(summary: dict[str, Any], records: list[dict[str, Any]],
             console.print(f"      why: {escape(v.why)}", highlight=False)
             if v.suggestion:
                 console.print(f"      fix: {escape(v.suggestion)}", highlight=False)
+    if not_passed > min(len(bad), TERMINAL_CASES):
+        console.print(f"... and {not_passed - min(len(bad), TERMINAL_CASES)} more: "
+                      "report.html and summary.md list the worst, results.jsonl has every case",
+                      highlight=False)
     # paths and file:line references are never broken across lines
     for p in summary.get("problems", []):
         console.print(f"[yellow]input problem:[/] {escape(p)}", highlight=False, soft_wrap=True)
