@@ -68,16 +68,18 @@ def run(set_dir: Path, results: Path, *extra: str, outputs: str = "v1") -> dict:
     args = [sys.executable, "-c", PEAK, sys.executable, "-m", "qacheck.cli", "run", str(set_dir),
             "--outputs", outputs, "--results", str(results), *extra]
     t0 = time.perf_counter()
-    proc = subprocess.Popen(args, stdout=subprocess.PIPE,
-                            stderr=subprocess.DEVNULL, text=True)
-    first = None
-    lines = results / "results.jsonl"
-    while proc.poll() is None:
-        if first is None and lines.exists() and lines.stat().st_size > 0:
-            first = time.perf_counter() - t0
-        time.sleep(0.02)
-    wall = time.perf_counter() - t0
-    rc, rss = proc.stdout.read().split()[-2:]
+    # the run's output goes to a file: a pipe nobody reads while it runs would fill and stall it
+    with tempfile.TemporaryFile("w+") as log:
+        proc = subprocess.Popen(args, stdout=log, stderr=subprocess.DEVNULL, text=True)
+        first = None
+        lines = results / "results.jsonl"
+        while proc.poll() is None:
+            if first is None and lines.exists() and lines.stat().st_size > 0:
+                first = time.perf_counter() - t0
+            time.sleep(0.02)
+        wall = time.perf_counter() - t0
+        log.seek(0)
+        rc, rss = log.read().split()[-2:]
     n = sum(1 for _ in open(lines)) if lines.exists() else 0
     return {"wall": wall, "first": first or wall, "rss_mb": int(rss) / 1024, "cases": n,
             "rc": int(rc)}

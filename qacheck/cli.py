@@ -255,14 +255,17 @@ def _open_cache(cache_path: str | None, no_cache: bool):
               help="Ray cluster to join [default: $RAY_ADDRESS]; 'local' starts a private "
                    "one-machine instance.")
 @click.option("--actors", type=click.IntRange(min=1),
-              help="Ray actors, one CPU and one model set each [default: the cluster's CPUs].")
+              help="Ray actors, each with its own models (about 0.9 GB) [default: the "
+                   "cluster's CPUs / --actor-cpus].")
+@click.option("--actor-cpus", type=click.IntRange(min=1), default=1, show_default=True,
+              help="CPUs (and torch threads) per Ray actor: fewer, larger actors need less memory.")
 @click.option("--batch-size", default=1, show_default=True,
               help="Cases per model batch; each batch's results are on disk as it finishes.")
 @click.option("--cache", "cache_path", type=click.Path(dir_okay=False),
               help="Result cache file [default: $QACHECK_CACHE or ~/.cache/qacheck].")
 @click.option("--no-cache", is_flag=True, help="Do not read or write the result cache.")
 def run(set_dir, outputs, results_dir, baseline, tolerance, allow_signature_mismatch, engine,
-        workers, ray_address, actors, batch_size, cache_path, no_cache) -> None:
+        workers, ray_address, actors, actor_cpus, batch_size, cache_path, no_cache) -> None:
     """Score every case of a scenario SET; write results, summary, Markdown, JUnit and HTML.
 
     Exit 0 when all is well, 1 when a case fails or the baseline gate trips,
@@ -281,8 +284,9 @@ def run(set_dir, outputs, results_dir, baseline, tolerance, allow_signature_mism
     thr = Thresholds.shipped().merged(sset.thresholds, origin=str(Path(set_dir) / "set.toml"))
     folder = Path(results_dir or Path("results") / f"{Path(set_dir).name}-{sset.outputs_name}")
     _check_folder(folder, "results")
-    if engine != "ray" and (ray_address or actors):
-        raise InputError("--ray-address and --actors need --engine ray", field="--engine")
+    if engine != "ray" and (ray_address or actors or actor_cpus != 1):
+        raise InputError("--ray-address, --actors and --actor-cpus need --engine ray",
+                         field="--engine")
     if engine == "ray" and workers != 1:
         raise InputError("--workers is for the local engine; the Ray engine takes --actors",
                          field="--workers")
@@ -292,7 +296,7 @@ def run(set_dir, outputs, results_dir, baseline, tolerance, allow_signature_mism
 
         scorer.engine = RayEngine(thr, {"signature": scorer.signature["id"],
                                         "evidence": scorer.checker.evidence_signature["id"]},
-                                  address=ray_address, actors=actors)
+                                  address=ray_address, actors=actors, actor_cpus=actor_cpus)
     columns = (TextColumn("[progress.description]{task.description}"), BarColumn(),
                MofNCompleteColumn(), TimeRemainingColumn())
     try:

@@ -3,7 +3,7 @@
 The driver (``qacheck run --engine ray``) loads and validates the set,
 resumes, answers from the cache and writes every file; it hands the pairs
 left to score to Ray actors in small batches, at most ``IN_FLIGHT`` per actor.
-Each actor builds one ``Checker`` from the qacheck installed on its node and
+Each actor (``actor_cpus`` CPUs and as many torch threads) builds one ``Checker`` from the qacheck installed on its node and
 reports its signature first; a signature other than the driver's (another
 precision mode, other model files or versions) stops the run before any
 result is used.  An actor or node that dies costs the batches it held, which
@@ -119,11 +119,12 @@ class RayEngine:
     """
 
     def __init__(self, thresholds: Thresholds, expected: dict[str, str],
-                 address: str | None = None, actors: int | None = None,
+                 address: str | None = None, actors: int | None = None, actor_cpus: int = 1,
                  start_timeout: float = START_TIMEOUT_S) -> None:
         self.ray = connect(address)
         cpus = int(self.ray.cluster_resources().get("CPU", 0))
-        self.actors = actors or max(1, cpus)
+        self.actors = actors or max(1, cpus // actor_cpus)
+        self.actor_cpus = actor_cpus
         self.thresholds, self.expected = thresholds, expected
         self.start_timeout = start_timeout
         # dead actors are replaced up to three times the actors asked for: a cluster that keeps
@@ -131,10 +132,10 @@ class RayEngine:
         self.replacements_left = 3 * self.actors
         self.resubmitted = 0
         self.last_death = ""
-        self.remote = self.ray.remote(num_cpus=1, max_restarts=0)(Reader)
+        self.remote = self.ray.remote(num_cpus=actor_cpus, max_restarts=0)(Reader)
 
     def _start(self) -> tuple[_Slot, Any]:
-        slot = _Slot(self.remote.remote(self.thresholds.as_dict(), 1))
+        slot = _Slot(self.remote.remote(self.thresholds.as_dict(), self.actor_cpus))
         return slot, slot.actor.describe.remote()
 
     def _check(self, slot: _Slot, info: dict[str, Any]) -> None:
@@ -222,7 +223,7 @@ class RayEngine:
                     waiting_since = time.monotonic()
                     yield batch[0], results
         finally:
-            for slot in slots + list(starting.values()):
+            for slot in slots:  # every live actor, ready or starting
                 ray.kill(slot.actor)
 
     def close(self) -> None:
