@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import json
 import tomllib
+from collections.abc import Iterator
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -66,28 +67,31 @@ class ScenarioSet:
     outputs_name: str
 
 
-def _read_jsonl(path: Path, problems: list[Problem]) -> list[tuple[int, dict[str, Any]]]:
-    rows = []
+def _read_jsonl(path: Path,
+                problems: list[Problem]) -> Iterator[tuple[int, dict[str, Any] | None]]:
+    """(line number, object) of each non-blank line, read one line at a time; a line that is not
+    a JSON object gives None and its problem.  Lines end at newline bytes only, as JSON Lines
+    defines them."""
     try:
-        raw = path.read_bytes()
+        fh = open(path, "rb")
     except OSError as exc:
         raise InputError(f"cannot read: {exc.strerror}", path=path) from exc
-    for lineno, line in enumerate(raw.split(b"\n"), 1):
-        if not line.strip():
-            continue
-        try:
-            rec = json.loads(line.decode("utf-8"))
-        except UnicodeDecodeError:
-            problems.append(Problem(str(path), lineno, None, "line is not UTF-8"))
-            continue
-        except json.JSONDecodeError as exc:
-            problems.append(Problem(str(path), lineno, None, f"not valid JSON ({exc.msg})"))
-            continue
-        if not isinstance(rec, dict):
-            problems.append(Problem(str(path), lineno, None, "a line must hold a JSON object"))
-            continue
-        rows.append((lineno, rec))
-    return rows
+    with fh:
+        for lineno, line in enumerate(fh, 1):
+            if not line.strip():
+                continue
+            try:
+                rec = json.loads(line.decode("utf-8"))
+            except UnicodeDecodeError:
+                problems.append(Problem(str(path), lineno, None, "line is not UTF-8"))
+                rec = None
+            except json.JSONDecodeError as exc:
+                problems.append(Problem(str(path), lineno, None, f"not valid JSON ({exc.msg})"))
+                rec = None
+            if rec is not None and not isinstance(rec, dict):
+                problems.append(Problem(str(path), lineno, None, "a line must hold a JSON object"))
+                rec = None
+            yield lineno, rec
 
 
 def _text_field(rec: dict, key: str, path: Path, lineno: int, problems: list[Problem],
@@ -166,12 +170,12 @@ def load_set(folder: str | Path, outputs: str | Path | None = None) -> ScenarioS
         raise InputError("scenario set has no cases.jsonl", path=folder)
     cases: list[Case] = []
     seen: dict[str, int] = {}
-    rows = _read_jsonl(cases_path, problems)
-    # a line that could not be read stays a case (an error case), so it is counted and reported
-    for p in list(problems):
-        cases.append(Case(f"{cases_path.name}:{p.line}", "", error=str(p)))
-        seen[cases[-1].id] = p.line or 0
-    for lineno, rec in rows:
+    for lineno, rec in _read_jsonl(cases_path, problems):
+        if rec is None:
+            # a line that could not be read stays a case (an error case): counted and reported
+            cases.append(Case(f"{cases_path.name}:{lineno}", "", error=str(problems[-1])))
+            seen[cases[-1].id] = lineno
+            continue
         cid = rec.get("id")
         if not isinstance(cid, str) or not cid.strip():
             problems.append(Problem(str(cases_path), lineno, "id", "missing or not a string"))
@@ -209,6 +213,8 @@ def load_set(folder: str | Path, outputs: str | Path | None = None) -> ScenarioS
         by_id = {c.id: c for c in cases}
         got: dict[str, int] = {}
         for lineno, rec in _read_jsonl(outputs_path, problems):
+            if rec is None:
+                continue
             cid = rec.get("id")
             if not isinstance(cid, str) or cid not in by_id:
                 problems.append(Problem(str(outputs_path), lineno, "id",
