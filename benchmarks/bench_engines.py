@@ -6,7 +6,8 @@ Prints, for an invented set scored without the cache:
   - the time from a cold cluster (nothing started) to the first result written;
 then the driver's peak memory (max RSS) when a set of ``--large`` cases (default 100,000) is
 served from the cache: real results of ``--distinct`` pairs (default 100), each scored once,
-reused under distinct case ids; and the driver's peak memory on the demo set with each engine.
+reused under distinct case ids; the peak memory of `qacheck compare` on that results folder;
+and the driver's peak memory on the demo set with each engine.
 
 Run: .venv/bin/python benchmarks/bench_engines.py [--cases 60] [--large 100000]
 Nothing else should be running; figures vary by a few percent between runs.
@@ -85,6 +86,13 @@ def run(set_dir: Path, results: Path, *extra: str, outputs: str = "v1") -> dict:
             "rc": int(rc)}
 
 
+def peak(cmd: list[str]) -> tuple[int, float]:
+    """Exit status and peak RSS (MB) of a command run in its own process."""
+    out = subprocess.run([sys.executable, "-c", PEAK, *cmd], stdout=subprocess.PIPE,
+                         stderr=subprocess.DEVNULL, text=True).stdout.split()
+    return int(out[-2]), int(out[-1]) / 1024
+
+
 def line(name: str, r: dict) -> str:
     rate = r["cases"] / r["wall"]
     steady = (r["cases"] - 1) / max(1e-9, r["wall"] - r["first"])
@@ -139,6 +147,12 @@ def main() -> None:
               f"driver peak {r['rss_mb']:.0f} MB, exit {r['rc']}; results.jsonl "
               f"{(tmp / 'big-r' / 'results.jsonl').stat().st_size / 2**20:.0f} MiB, report.html "
               f"{(tmp / 'big-r' / 'report.html').stat().st_size / 2**20:.1f} MiB")
+        t0 = time.perf_counter()
+        rc, rss = peak([sys.executable, "-m", "qacheck.cli", "compare", str(tmp / "big-r"),
+                        str(tmp / "big-r"), "--format", "json,html", "--out",
+                        str(tmp / "cmp.json")])
+        print(f"compare of those {args.large:,} cases with themselves (json and html): "
+              f"{time.perf_counter() - t0:.1f} s, peak {rss:.0f} MB, exit {rc}")
         r = run(DEMO, tmp / "demo-r", "--no-cache", outputs="writer-v1")
         print(f"demo set, local engine (the models load in the driver): driver peak "
               f"{r['rss_mb']:.0f} MB")

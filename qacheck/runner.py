@@ -214,7 +214,8 @@ def iter_results(path: Path) -> Iterator[dict[str, Any]]:
                 yield rec
 
 
-def _read_summary(folder: Path) -> dict[str, Any]:
+def read_summary(folder: Path) -> dict[str, Any]:
+    """summary.json of a finished results folder, with clear errors when it is not one."""
     summary_path = folder / SUMMARY_FILE
     if not summary_path.exists():
         raise InputError("not a results folder (no summary.json): run `qacheck run` first",
@@ -223,12 +224,6 @@ def _read_summary(folder: Path) -> dict[str, Any]:
         return json.loads(summary_path.read_text(encoding="utf-8"))
     except json.JSONDecodeError as exc:
         raise InputError(f"not valid JSON ({exc.msg})", path=summary_path, line=exc.lineno) from exc
-
-
-def load_results(folder: str | Path) -> tuple[dict[str, Any], list[dict[str, Any]]]:
-    """(summary, records) of a finished results folder, with clear errors when it is not one."""
-    folder = Path(folder)
-    return _read_summary(folder), list(iter_results(folder / RESULTS_FILE))
 
 
 @contextmanager
@@ -369,7 +364,7 @@ def gate(current: dict[str, Any], rows: Iterable[CaseRow], baseline_dir: Path,
 
     Both sides are read as rows (id, status, score), the baseline one line at a time.
     """
-    base_summary = _read_summary(baseline_dir)
+    base_summary = read_summary(baseline_dir)
     msgs = []
     mismatch = base_summary["signature"]["id"] != current["signature"]["id"]
     if mismatch:

@@ -34,13 +34,26 @@ class PairedStats:
         return asdict(self)
 
 
+#: resamples are drawn in blocks of at most this many values (about 32 MB each): memory stays
+#: flat for any number of cases, and the draws (so the figures) equal one draw of the whole matrix
+BLOCK_VALUES = 2**22
+
+
+def _blocks(resamples: int, n: int):
+    """(start, rows) of consecutive row blocks covering ``resamples`` rows of ``n`` values."""
+    rows = max(1, BLOCK_VALUES // max(1, n))
+    for start in range(0, resamples, rows):
+        yield start, min(rows, resamples - start)
+
+
 def paired_bootstrap_ci(a: np.ndarray, b: np.ndarray, resamples: int = 10_000,
                         confidence: float = 0.95, seed: int = 0) -> tuple[float, float]:
     """Percentile interval of mean(b - a) over case resamples with replacement."""
     d = np.asarray(b, float) - np.asarray(a, float)
     rng = np.random.default_rng(seed)
-    idx = rng.integers(0, len(d), size=(resamples, len(d)))
-    means = d[idx].mean(axis=1)
+    means = np.empty(resamples)
+    for start, rows in _blocks(resamples, len(d)):
+        means[start:start + rows] = d[rng.integers(0, len(d), size=(rows, len(d)))].mean(axis=1)
     alpha = (1 - confidence) / 2
     return float(np.quantile(means, alpha)), float(np.quantile(means, 1 - alpha))
 
@@ -53,9 +66,10 @@ def approximate_randomisation(a: np.ndarray, b: np.ndarray, resamples: int = 10_
     if observed == 0.0:
         return 1.0
     rng = np.random.default_rng(seed)
-    signs = rng.choice((-1.0, 1.0), size=(resamples, len(d)))
-    stats = np.abs((signs * d).mean(axis=1))
-    hits = int((stats >= observed - 1e-12).sum())
+    hits = 0
+    for _, rows in _blocks(resamples, len(d)):
+        signs = rng.choice((-1.0, 1.0), size=(rows, len(d)))
+        hits += int((np.abs((signs * d).mean(axis=1)) >= observed - 1e-12).sum())
     return (hits + 1) / (resamples + 1)
 
 

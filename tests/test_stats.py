@@ -88,3 +88,15 @@ def test_balanced_accuracy_matches_sklearn():
 def test_best_threshold_separates_separable_data():
     cut, ba = best_threshold([False, False, True, True], [0.1, 0.2, 0.7, 0.9])
     assert 0.2 < cut < 0.7 and ba == 1.0
+
+
+def test_resamples_drawn_in_blocks_give_the_figures_of_one_draw(paired, monkeypatch):
+    """Blocks keep memory flat on large sets; the seed must still fix every figure."""
+    from qacheck import stats
+
+    a, b = paired
+    whole = (stats.paired_bootstrap_ci(a, b, 999, seed=4),
+             stats.approximate_randomisation(a, b, 999, seed=4))
+    monkeypatch.setattr(stats, "BLOCK_VALUES", 7 * len(a) + 3)  # blocks of 7 rows, 999 = 142*7+5
+    assert (stats.paired_bootstrap_ci(a, b, 999, seed=4),
+            stats.approximate_randomisation(a, b, 999, seed=4)) == whole

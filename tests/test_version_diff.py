@@ -61,3 +61,34 @@ def test_mismatched_sets_are_refused(runs, tmp_path):
     CliRunner().invoke(main, ["run", str(other), "--results", str(tmp_path / "lib")])
     res = CliRunner().invoke(main, ["compare", str(a), str(tmp_path / "lib")])
     assert res.exit_code == 2 and "same set" in res.output
+
+
+def _folder(path: Path, outputs: str, scores: dict[str, float]) -> Path:
+    path.mkdir()
+    (path / "summary.json").write_text(json.dumps({
+        "set": "big", "outputs": outputs, "signature": {"id": "s", "text": "signature s"}}))
+    with open(path / "results.jsonl", "w") as fh:
+        for cid, score in scores.items():
+            fh.write(json.dumps({"id": cid, "status": "pass", "score": score, "label": "consistent",
+                                 "reasons": [], "result": None}) + "\n")
+    return path
+
+
+def test_a_large_comparison_uses_every_case_and_draws_the_largest_changes(tmp_path):
+    from qacheck.reports.version_diff import PLOT_POINTS, render_html
+    from qacheck.version_diff import compare_runs
+
+    n = PLOT_POINTS + 500
+    a = {f"c{i}": round(0.5 + 0.4 * ((i * 37) % 101) / 101, 4) for i in range(n)}
+    b = {cid: round(min(1.0, max(0.0, s + (((i * 53) % 41) - 20) / 400)), 4)
+         for i, (cid, s) in enumerate(a.items())}
+    c = compare_runs(_folder(tmp_path / "a", "v1", a), _folder(tmp_path / "b", "v2", b),
+                     resamples=200, top=3)
+    diffs = sorted(b[k] - a[k] for k in a)
+    assert c.stats.n == n and abs(c.stats.diff - sum(diffs) / n) < 1e-9
+    # the largest drops, computed here without the library, with both records attached
+    assert [round(p["diff"], 6) for p in c.regressions] == [round(d, 6) for d in diffs[:3]]
+    assert all(p["a"]["id"] == p["b"]["id"] == p["id"] for p in c.regressions)
+    page = render_html(c)
+    drawn = page.count("<circle") + page.count("(worse)</title></path>")
+    assert drawn == PLOT_POINTS and f"{n - PLOT_POINTS} more, with smaller changes" in page

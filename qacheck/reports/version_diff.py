@@ -78,8 +78,15 @@ def render_markdown(c: Comparison) -> str:
     return "\n".join(out)
 
 
+#: the scatter draws at most this many cases (those that changed most), so the page of a large
+#: set stays small; the figures above it use every case
+PLOT_POINTS = 2000
+
+
 def render_html(c: Comparison) -> str:
-    plot = scatter([(p["id"], p["score_a"], p["score_b"]) for p in c.pairs])
-    cut = cut_of(*(p["b"].get("result") for p in c.pairs))
+    drawn = sorted(c.pairs, key=lambda p: -abs(p["diff"]))[:PLOT_POINTS]
+    plot = scatter([(p["id"], p["score_a"], p["score_b"]) for p in drawn])
+    cut = cut_of(*(r.get("result") for r in c.records["B"].values()))
     return render("compare.html.j2", title=f"qacheck compare: {c.set_name}", c=c,
-                  figures=_figures(c), plot=plot, flagged=flagged, cut=cut)
+                  figures=_figures(c), plot=plot, flagged=flagged, cut=cut,
+                  not_drawn=len(c.pairs) - len(drawn))
