@@ -72,8 +72,9 @@ def connect(address: str | None) -> Any:
 
     ``local`` starts a private one-machine instance for this run; no address
     at all is an error, because starting a cluster nobody asked for would
-    hide a misconfigured nightly job.  A driver joining a cluster bound to a
-    loopback address (a test cluster on one machine) joins with that address.
+    hide a misconfigured nightly job.  An address nothing answers on fails in
+    seconds.  A driver joining a cluster bound to a loopback address other than
+    127.0.0.1 (a test cluster on one machine) joins with that address.
     """
     try:
         import ray
@@ -87,18 +88,38 @@ def connect(address: str | None) -> Any:
     kwargs: dict[str, Any] = {"address": address, "log_to_driver": False}
     if address == "local":
         kwargs["include_dashboard"] = False
-    host = address.removeprefix("ray://").rsplit(":", 1)[0]
-    try:
-        if ipaddress.ip_address(host).is_loopback:
-            kwargs["_node_ip_address"] = host
-    except ValueError:
-        pass
+    elif address != "auto":  # "auto": the cluster `ray start` began on this node
+        host, _, port = address.removeprefix("ray://").rpartition(":")
+        _reachable(address, host, port)
+        try:
+            # Ray itself maps 127.0.0.1 to the node's address; other loopback addresses are kept
+            if ipaddress.ip_address(host).is_loopback and host not in ("127.0.0.1", "::1"):
+                kwargs["_node_ip_address"] = host
+        except ValueError:
+            pass
     try:
         ray.init(**kwargs)
     except (ConnectionError, ValueError, RuntimeError) as exc:
         raise InputError(f"cannot reach the Ray cluster at {address}: {exc}",
                          field="--ray-address") from None
     return ray
+
+
+#: seconds to wait for the cluster's port to answer before calling the address wrong
+CONNECT_TIMEOUT_S = 10.0
+
+
+def _reachable(address: str, host: str, port: str) -> None:
+    """Fail fast on an address nothing listens on: Ray itself retries for minutes."""
+    import socket
+
+    if not host or not port.isdigit():
+        raise InputError(f"not a HOST:PORT address: {address!r}", field="--ray-address")
+    try:
+        socket.create_connection((host, int(port)), timeout=CONNECT_TIMEOUT_S).close()
+    except OSError as exc:
+        raise InputError(f"cannot reach the Ray cluster at {address}: "
+                         f"{exc.strerror or exc}", field="--ray-address") from None
 
 
 @dataclass

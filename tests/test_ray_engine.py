@@ -50,6 +50,11 @@ def test_the_ray_engine_never_starts_a_cluster_unasked(monkeypatch, tmp_path):
                                     "--results", str(tmp_path / "r")])
     assert res.exit_code == 2 and "--ray-address HOST:PORT or $RAY_ADDRESS" in res.output
     assert not (tmp_path / "r" / "results.jsonl").exists()
+    # an address nothing listens on is an error at once (Ray would retry for minutes)
+    res = CliRunner().invoke(main, ["run", str(PORT), "--outputs", "writer-v1", "--engine", "ray",
+                                    "--ray-address", f"{LOOPBACK}:9", "--results",
+                                    str(tmp_path / "r")])
+    assert res.exit_code == 2 and "cannot reach the Ray cluster" in res.output
 
 
 @pytest.fixture(scope="module")
