@@ -199,6 +199,10 @@ def test_killed_run_loses_nothing_and_resumes_to_same_results(tmp_path, uninterr
     assert resumed.returncode == 1, resumed.stderr
     final = [json.loads(x) for x in results.read_text().splitlines()]
     assert [(r["id"], r["score"], r["status"]) for r in final] == uninterrupted
+    # junit.xml, written as cases arrive, holds every case once; no part file is left behind
+    cases = ET.parse(tmp_path / "killed" / "junit.xml").getroot().findall("testcase")
+    assert sorted(c.get("name") for c in cases) == sorted(i for i, _, _ in uninterrupted)
+    assert not list((tmp_path / "killed").glob(".*.part"))
 
 
 def test_set_thresholds_must_be_known(tmp_path):
@@ -283,7 +287,6 @@ def test_a_rerun_served_from_the_cache_loads_no_model_library(tmp_path):
 def test_the_html_report_of_a_large_set_shows_the_worst_cases_and_says_where_the_rest_are(
         tmp_path):
     import random
-    import xml.etree.ElementTree as ET
 
     from qacheck.reports.junit import JUnitStream
     from qacheck.reports.run import write_run_reports

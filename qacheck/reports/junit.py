@@ -48,8 +48,12 @@ class JUnitStream:
     """junit.xml of a run folder, one <testcase> appended per record as it arrives."""
 
     def __init__(self, folder: Path, set_name: str) -> None:
+        """Open the part file; parts left by a killed run are removed (the caller holds the
+        folder's lock, so no other run is writing one)."""
         self.path = folder / JUNIT_FILE
         self.set_name = set_name
+        for stale in folder.glob(f".{JUNIT_FILE}.*.part"):
+            stale.unlink(missing_ok=True)
         self._part = folder / f".{JUNIT_FILE}.{os.getpid()}.part"
         self._fh = open(self._part, "w", encoding="utf-8")
         self.cases = 0
