@@ -387,10 +387,14 @@ def _score_outputs(set_dir: str, outputs: str) -> Path:
 @click.option("--fit", is_flag=True,
               help="Fit the sentence model and its cut on these files (leave-one-file-out "
                    "figures reported) and ship them.")
+@click.option("--held-out-limit", type=int,
+              help="With --fit: also judge an N-record sample of each file (same seed) by the "
+                   "model fitted on the other files, e.g. the sample earlier figures used.")
 @click.option("--no-cosine", is_flag=True, help="Skip the MiniLM cosine baseline.")
 @click.option("--cache", "cache_path", type=click.Path(dir_okay=False),
               help="Result cache file [default: $QACHECK_CACHE or ~/.cache/qacheck].")
-def agreement(files, limit, seed, fmt, as_json, out, fit, no_cosine, cache_path) -> None:
+def agreement(files, limit, seed, fmt, as_json, out, fit, held_out_limit, no_cosine,
+              cache_path) -> None:
     """Agreement with human faithfulness judgements (ROC AUC, balanced accuracy, sentences)."""
     targets = report_targets(fmt, as_json, out, ("text", "json"))
     from rich.progress import Progress
@@ -422,9 +426,15 @@ def agreement(files, limit, seed, fmt, as_json, out, fit, no_cosine, cache_path)
 
         res = run_agreement([Path(f) for f in files], scorer, limit, seed, progress,
                             with_cosine=not no_cosine)
+        also = None
+        if fit and held_out_limit:
+            also = run_agreement([Path(f) for f in files], scorer, held_out_limit, seed,
+                                 progress, with_cosine=False)["raw"]
     raw = res.pop("raw")
     if fit:
-        fitted = fit_judge_model(raw)
+        fitted = fit_judge_model(raw, also=also)
+        if also:
+            fitted["held_out_limit"] = held_out_limit
         _ship_judge_model(fitted, files, limit, seed, res["signature"]["id"])
         fitted["in_sample"] = rejudged_figures(raw, fitted["model"])
         fitted["model"] = fitted["model"].as_dict()
@@ -458,6 +468,9 @@ def _ship_judge_model(fitted: dict, files, limit, seed, scored_under: str) -> No
               "n_sentences": fitted["n_sentences"], "n_conflict_flags": fitted["n_conflict_flags"],
               "balanced_accuracy_fitted": round(fitted["balanced_accuracy_fitted"], 4),
               "leave_one_file_out": fitted["leave_one_file_out"],
+              **({"held_out_limit": fitted["held_out_limit"],
+                  "leave_one_file_out_at_held_out_limit": fitted["leave_one_file_out_also"]}
+                 if "held_out_limit" in fitted else {}),
               "date": time.strftime("%Y-%m-%d")}
     path = Path(str(resources.files("qacheck"))) / "judge_model.json"
     path.write_text(json.dumps({"origin": origin, "model": fitted["model"].as_dict()}, indent=2)

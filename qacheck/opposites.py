@@ -27,6 +27,8 @@ _OPPOSITE = {**_DIRECTIONS, **{v: k for k, v in _DIRECTIONS.items()}}
 #: words that negate what follows; "n't" is split off by the tokeniser below
 NEGATORS = frozenset({"not", "no", "never", "n't", "without", "none", "nobody", "nothing",
                       "neither", "nor", "cannot", "nowhere", "non"})
+#: how alike two answers must be, negation aside, for a one-sided negation to be a conflict
+NEGATION_SAME_F1 = 0.6
 _TOKEN = re.compile(r"n't|[a-z0-9]+(?=n't)|[a-z0-9]+(?:-[a-z0-9]+)*", re.I)
 
 
@@ -134,5 +136,24 @@ def opposite_pair(a: str, b: str) -> tuple[str, str] | None:
 
 
 def one_sided_negation(a: str, b: str) -> bool:
-    """Exactly one of two answers is negated ("not guilty" / "guilty", "no increase" / "increase")."""
-    return (any(t in NEGATORS for t in tokens(a))) != (any(t in NEGATORS for t in tokens(b)))
+    """Exactly one of two answers is negated, and apart from the negation they say the same
+    thing ("not guilty" / "guilty", "no increase" / "increase", "did not attend" / "attended").
+
+    "The same thing" is a token F1 of at least ``NEGATION_SAME_F1`` between the answers'
+    content-word stems (``qacheck.words.content_stems``; negators are stop words).  Without it a
+    long source answer that happens to hold a "not" somewhere ("the poll, saying there was not a
+    genuine choice") would contradict any short answer.  A bare denial ("none", "never") has no
+    content words and conflicts with any answer that is not negated.
+    """
+    from collections import Counter
+
+    from qacheck.words import content_stems
+
+    if any(t in NEGATORS for t in tokens(a)) == any(t in NEGATORS for t in tokens(b)):
+        return False
+    ca, cb = content_stems(a), content_stems(b)
+    negated = ca if any(t in NEGATORS for t in tokens(a)) else cb
+    if not negated:
+        return True
+    same = sum((Counter(ca) & Counter(cb)).values())
+    return bool(same) and 2 * same / (len(ca) + len(cb)) >= NEGATION_SAME_F1

@@ -20,6 +20,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 from functools import lru_cache
 
+from qacheck.words import content_stems
+
 WINDOW_WORDS = 120
 TOP_K = 3
 #: windows a question's answer is looked for in: recall@4 of 120-word windows on whole SQuAD dev
@@ -59,13 +61,6 @@ class Window:
     text: str
 
 
-def _stems(text: str) -> list[str]:
-    from qacheck.words import _WORD, _stem, _stop_words
-
-    stop = _stop_words()
-    return [_stem(w.lower()) for w in _WORD.findall(text) if w.lower() not in stop]
-
-
 @lru_cache(maxsize=64)
 def windows(source: str, size: int = WINDOW_WORDS) -> tuple[Window, ...]:
     """Overlapping windows of whole source sentences, at most ``size`` words each."""
@@ -92,7 +87,7 @@ def _index(source: str, size: int):
     from rank_bm25 import BM25Okapi
 
     wins = windows(source, size)
-    return BM25Okapi([_stems(w.text) or ["_"] for w in wins]), wins
+    return BM25Okapi([content_stems(w.text) or ["_"] for w in wins]), wins
 
 
 def best_windows(source: str, query: str, k: int = TOP_K, size: int = WINDOW_WORDS
@@ -100,7 +95,7 @@ def best_windows(source: str, query: str, k: int = TOP_K, size: int = WINDOW_WOR
     """The ``k`` windows of at most ``size`` words most likely to hold what ``query`` asks or
     claims, best first."""
     bm25, wins = _index(source, size)
-    scores = bm25.get_scores(_stems(query) or ["_"])
+    scores = bm25.get_scores(content_stems(query) or ["_"])
     order = sorted(range(len(wins)), key=lambda i: (-scores[i], i))
     return [wins[i] for i in order[:k]]
 

@@ -151,6 +151,27 @@ def sentence_bounds(text: str) -> list[tuple[int, int]]:
     return [(s, e) for s, e in spans if text[s:e].strip()]
 
 
+def entity_kinds_at(text: str, start: int | None, end: int | None) -> frozenset[str]:
+    """spaCy's entity labels over ``text[start:end]``, read in its sentence.
+
+    A lone answer ("Oscar", "Lyon") is hard to type; in its sentence ("Oscar
+    tries a flick ...") spaCy sees a person.  Only the one sentence is parsed,
+    and only when a name conflict is about to be called.
+    """
+    if start is None or end is None:
+        return frozenset()
+    for s, e in sentence_bounds(text):
+        if s <= start < e:
+            return _kinds_in_sentence(text[s:e], start - s, min(end, e) - s)
+    return frozenset()
+
+
+@lru_cache(maxsize=1024)
+def _kinds_in_sentence(sentence: str, start: int, end: int) -> frozenset[str]:
+    return frozenset(ent.label_ for ent in nlp()(sentence).ents
+                     if ent.start_char < end and start < ent.end_char)
+
+
 def segment(text: str, max_spans: int = 6) -> list[Sentence]:
     """Sentences of ``text`` with their answer spans, offsets kept."""
     return segment_many([text], max_spans)[0]

@@ -20,7 +20,23 @@ from dataclasses import dataclass
 from functools import lru_cache
 from typing import Literal
 
+from qacheck.words import stem, stop_words
+
 ValueFamily = Literal["amount", "time", "date"]
+#: what a qualifier before a number makes of it
+Bound = Literal["exact", "at_least", "at_most", "about"]
+#: qualifiers of English, read right before a number (a table of words, not a parser)
+_QUALIFIERS: dict[str, Bound] = {
+    "more than": "at_least", "over": "at_least", "at least": "at_least", "upwards of": "at_least",
+    "in excess of": "at_least", "above": "at_least", "less than": "at_most", "fewer than": "at_most",
+    "under": "at_most", "up to": "at_most", "at most": "at_most", "below": "at_most",
+    "about": "about", "around": "about", "some": "about", "roughly": "about", "nearly": "about",
+    "almost": "about", "approximately": "about", "close to": "about", "an estimated": "about",
+    "estimated": "about", "circa": "about"}
+_QUALIFIER_RE = re.compile(r"\b(" + "|".join(sorted(_QUALIFIERS, key=len, reverse=True))
+                           + r")\s*[$€£¥]?\s*$", re.I)
+#: how far "about N" may stray from N and still be N
+ABOUT_TOLERANCE = 0.1
 
 #: how much a word after a number multiplies it; a table of English words, not a parser
 _SCALES = {"thousand": 1e3, "million": 1e6, "billion": 1e9, "trillion": 1e12,
@@ -56,6 +72,11 @@ class Value:
     (year, month, day) tuple with None for what the text leaves out (dates);
     ``unit`` is the currency, the pint dimensionality, "percent" or "";
     ``step`` is the precision the text was written to (amounts only).
+    For amounts also: ``written``, the number as written before any unit
+    conversion (so "18" can meet "18 months"); ``ordinal`` for "5th";
+    ``bound``, what a qualifier before the number makes of it ("more than" ->
+    ``at_least``, "under" -> ``at_most``, "about" -> ``about``); and ``noun``,
+    the stem of the word a unitless number counts ("412 vessel calls" -> vessel).
     """
 
     family: ValueFamily
@@ -63,6 +84,10 @@ class Value:
     unit: str
     step: float = 0.0
     half_day: bool = False  # a time written without am/pm or a 24-hour clock
+    written: float = 0.0
+    ordinal: bool = False
+    bound: Bound = "exact"
+    noun: str = ""
 
 
 def _step(num_text: str, scale: float) -> float:
@@ -181,8 +206,17 @@ def _amounts(text: str, taken: list[tuple[int, int]]) -> list[Value]:
             amount, step = amount * factor, step * factor
         else:
             unit = ""
-        out.append(Value("amount", amount, unit, step))
+        q = _QUALIFIER_RE.search(text[max(0, m.start() - 24):m.start("num")])
+        noun = ""
+        if not unit and unit_word and unit_word.lower() not in stop_words():
+            noun = stem(unit_word.lower())
+        out.append(Value("amount", amount, unit, step, written=number * scale,
+                         ordinal=bool(m.group("ord")),
+                         bound=_QUALIFIERS[q.group(1).lower()] if q else "exact", noun=noun))
     return out
+
+
+
 
 
 @lru_cache(maxsize=8192)
@@ -205,13 +239,29 @@ def extract_values(text: str) -> tuple[Value, ...]:
 
 
 def _same_amount(a: Value, b: Value) -> bool | None:
-    """Equal within the precision either side was written to; None when units differ in kind."""
+    """Equal within the precision either side was written to, or within what a qualifier
+    allows; None when the two cannot be compared.
+
+    Not comparable: units of different kinds, an ordinal and a count ("2" / "fifth"), and two
+    unitless numbers that count different things ("second half" / "77th minute").  A number
+    with a unit on one side only is compared as written ("18" / "18 months").
+    """
     if a.unit != b.unit and a.unit and b.unit:
         if a.unit in _CURRENCY_WORDS and b.unit in _CURRENCY_WORDS:
             return False  # two currencies: not the same amount
         return None
-    tol = max(a.step, b.step) / 2 + 1e-9 * max(abs(a.amount), abs(b.amount), 1.0)
-    return abs(a.amount - b.amount) <= tol
+    if a.ordinal != b.ordinal or (a.noun and b.noun and a.noun != b.noun):
+        return None
+    x, y = (a.amount, b.amount) if a.unit == b.unit else (a.written, b.written)
+    tol = max(a.step, b.step) / 2 + 1e-9 * max(abs(x), abs(y), 1.0)
+    if abs(x - y) <= tol:
+        return True
+    for p, q, other in ((a, x, y), (b, y, x)):
+        if p.bound == "at_least" and other >= q - tol or p.bound == "at_most" and other <= q + tol:
+            return True
+        if p.bound == "about" and abs(other - q) <= ABOUT_TOLERANCE * abs(q) + tol:
+            return True
+    return False
 
 
 def _same_time(a: Value, b: Value) -> bool:

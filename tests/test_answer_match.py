@@ -102,7 +102,6 @@ def test_words_that_share_tokens_yet_disagree_are_typed_conflicts(a, b, conflict
     kind = "PERSON" if conflict == "name" else ""
     m = match_answers(a, b, kind)
     assert m.conflict == conflict and m.agreement == 0.0, (a, b, m)
-    assert token_f1(a, b) >= 0.0  # plain overlap alone would not have caught every one
 
 
 @pytest.mark.parametrize("a,b,kind", [
@@ -146,3 +145,63 @@ def test_antonyms_come_from_wordnet():
     # checked here against the installed files)
     assert "low" in antonyms("high") and "decrease" in antonyms("increase")
     assert "lose" in antonyms("win")
+
+
+# --- what the QA model's answers look like on generated text (kinds seen in annotated news
+# summaries, Cao & Wang 2021; the strings below are invented) --------------------------------
+
+@pytest.mark.parametrize("a,b", [("a hat - trick", "hat-trick"), ("second - round", "second-round"),
+                                 ("Port of Caldreth - Vorne", "Port of Caldreth-Vorne")])
+def test_a_spaced_hyphen_is_the_same_compound(a, b):
+    # tokenised output spaces hyphens; the official SQuAD normalisation deletes punctuation, so
+    # without joining them "hat - trick" reads "hat trick" against "hattrick"
+    assert token_f1(a, b) < 1.0
+    m = match_answers(a, b)
+    assert m.same and m.conflict is None and m.f1 == 1.0, (a, b, m)
+
+
+@pytest.mark.parametrize("a,b", [
+    ("more than £500,000", "£572,206"),   # a lower bound the exact figure meets
+    ("under 10 berths", "8 berths"),       # an upper bound
+    ("about 40 percent", "43 percent"),    # "about": within a tenth
+    ("18", "18 months"),                   # a unit on one side only: compared as written
+])
+def test_a_qualified_or_less_specific_number_agrees(a, b):
+    # "more than N" is a lower bound, "about N" an approximation: common English usage
+    assert compare_values(extract_values(a), extract_values(b))[0] == "same", (a, b)
+    assert match_answers(a, b).conflict is None
+
+
+@pytest.mark.parametrize("a,b", [("about 40 percent", "50 percent"), ("under 10 berths", "12 berths"),
+                                 ("more than 500", "450")])
+def test_a_qualified_number_the_other_side_breaks_conflicts(a, b):
+    assert compare_values(extract_values(a), extract_values(b))[0] == "conflict", (a, b)
+
+
+@pytest.mark.parametrize("a,b", [("the second half", "77th minute"), ("2", "fifth"),
+                                 ("6 vessels", "9 berths")])
+def test_numbers_that_count_different_things_are_not_compared(a, b):
+    # an ordinal against a count, or two counts of different nouns, is the QA model answering
+    # another question, not the source giving another value
+    assert compare_values(extract_values(a), extract_values(b)) == (None, None), (a, b)
+    assert match_answers(a, b).conflict is None
+
+
+def test_a_negation_conflicts_only_when_the_rest_says_the_same():
+    assert match_answers("did not attend", "attended").conflict == "negation"
+    assert match_answers("the levy was not raised", "the levy was raised").conflict == "negation"
+    # a long source answer that holds a "not" somewhere says something else, not the opposite
+    for a, b in [("the vote", "the vote, saying there was not a genuine choice of candidates"),
+                 ("An inquiry", "the board could see no recovery plan")]:
+        assert match_answers(a, b).conflict is None, (a, b)
+
+
+@pytest.mark.parametrize("a,b,kind,same", [
+    ("Alexander Vell", "Norway's Vell", "PERSON", True),   # one person, by surname
+    ("Mrs Ru", "Driver Mei Ru", "PERSON", True),          # titles are not names
+    ("Bram Okonedo", "Edda Quimby", "PERSON", False),
+    ("Caldreth United", "Caldreth City", "ORG", False),   # a shared word is not one team
+])
+def test_a_person_named_twice_is_one_name(a, b, kind, same):
+    m = match_answers(a, b, kind)
+    assert (m.same, m.conflict) == ((True, None) if same else (False, "name")), (a, b, m)

@@ -42,7 +42,7 @@ def test_a_sentence_without_questions_is_judged_by_its_words_and_counted(checker
     r = checker.check(SOURCE, "Well, that is it. The authority handled 412 vessel calls.")
     assert [s.checked for s in r.sentences] == [False, True] and r.unchecked_share == 0.5
     s = r.sentences[0]
-    assert s.evidence["unchecked"] == 1.0 and s.score is not None and s.reason is not None
+    assert s.evidence["qa_mean"] == 0.0 and s.score is not None and s.reason is not None
 
 
 def test_same_input_same_json(checker):

@@ -26,6 +26,19 @@ def _table(title: str, files: dict[str, Any]) -> Table:
     return table
 
 
+def _held_out(console: Console, title: str, held: dict[str, Any]) -> None:
+    console.print(title)
+    for name, h in held.items():
+        base = h.get("baselines", {})
+        console.print(f"  {name}: ROC AUC {_f(h['roc_auc'])} (ROUGE-L P "
+                      f"{_f(base.get('rougeL_precision'))}, word coverage "
+                      f"{_f(base.get('word_coverage'))}), balanced accuracy "
+                      f"{h['balanced_accuracy']:.3f} (cut {h['cut_from_other_files']:.3f}), "
+                      f"sentence P/R {_f(h['sentence_precision'])}/{_f(h['sentence_recall'])}, "
+                      f"typed-conflict precision {_f(h['conflict_precision'])} "
+                      f"over {h['conflict_flags']} flags")
+
+
 def render_agreement(res: dict[str, Any], console: Console) -> None:
     console.print(_table("agreement with human judgements", res["files"]))
     if "overall" in res:
@@ -39,11 +52,9 @@ def render_agreement(res: dict[str, Any], console: Console) -> None:
                       "data). The figures above used the model shipped before this fit.")
         console.print(_table("in sample: judged again with the model just fitted on them",
                              fit["in_sample"]))
-        console.print("held out (model and cut fitted on the other files only):")
-        for name, h in fit["leave_one_file_out"].items():
-            console.print(f"  {name}: ROC AUC {_f(h['roc_auc'])}, balanced accuracy "
-                          f"{h['balanced_accuracy']:.3f} (cut {h['cut_from_other_files']:.3f}), "
-                          f"sentence P/R {_f(h['sentence_precision'])}/{_f(h['sentence_recall'])}, "
-                          f"typed-conflict precision {_f(h['conflict_precision'])} "
-                          f"over {h['conflict_flags']} flags")
+        _held_out(console, "held out (model and cut fitted on the other files only):",
+                  fit["leave_one_file_out"])
+        if "leave_one_file_out_also" in fit:
+            _held_out(console, f"the same held-out models on a {fit['held_out_limit']}-record "
+                      "sample of each file:", fit["leave_one_file_out_also"])
     console.print(f"[dim]{res['signature']['text']}[/]")
