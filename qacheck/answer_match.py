@@ -20,13 +20,14 @@ import re
 import string
 from collections import Counter
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from typing import Literal
 
 from rapidfuzz import fuzz
 
-from qacheck.opposites import one_sided_negation, opposite_pair
+from qacheck.opposites import antonyms, one_sided_negation, opposite_pair
+from qacheck.segment import Predicate
 from qacheck.values import compare_values, extract_values
 
 _ARTICLES = re.compile(r"\b(a|an|the)\b")
@@ -70,7 +71,8 @@ def best_over_references(metric, prediction: str, truths: list[str]) -> float:
 # --- matching ------------------------------------------------------------------------
 
 #: how two answers were compared
-MatchKind = Literal["text", "amount", "time", "date", "name"]
+#: ("predicate": the answers agree, and the verbs they are arguments of were compared)
+MatchKind = Literal["text", "amount", "time", "date", "name", "predicate"]
 #: the typed conflicts: specific evidence of a contradiction
 Conflict = Literal["value", "opposite", "negation", "name"]
 
@@ -123,11 +125,16 @@ def join_hyphens(text: str) -> str:
 
 
 def match_answers(output_answer: str, source_answer: str, span_kind: str = "",
-                  source_kinds: Callable[[], frozenset[str]] | None = None) -> AnswerMatch:
+                  source_kinds: Callable[[], frozenset[str]] | None = None,
+                  predicates: Callable[[], tuple[Predicate | None, Predicate | None]] | None = None,
+                  ) -> AnswerMatch:
     """Compare the output's answer with the source's answer to the same question.
 
     ``source_kinds`` gives spaCy's entity labels of the source answer where it
     stands in the source (asked only before a name conflict is called).
+    ``predicates`` gives the verbs the two answers are arguments of; asked only
+    when the answers agree, it turns agreement into a conflict when the two
+    texts say opposite things about the same answer (``predicate_conflict``).
     Hyphens are compared unspaced (``join_hyphens``).  In order: identical text; a value conflict; a one-sided negation; an
     opposite word; the same value; for a name question, one name written two
     ways or one person named twice (``_same_name``) agrees, and two different
@@ -136,6 +143,45 @@ def match_answers(output_answer: str, source_answer: str, span_kind: str = "",
     (rapidfuzz's token-set ratio is 100, "the authority" / "Port of Caldreth
     Authority"); otherwise token F1 decides.
     """
+    m = _match(output_answer, source_answer, span_kind, source_kinds)
+    if m.conflict is None and (m.same or m.f1 >= PREDICATE_CHECK_F1) and predicates is not None:
+        found = predicate_conflict(*predicates())
+        if found is not None:
+            return replace(m, same=False, kind="predicate", conflict=found[0], detail=found[1])
+    return m
+
+
+#: answers at least this alike (token F1) are the same answer, so their predicates are compared
+PREDICATE_CHECK_F1 = 0.5
+
+
+def predicate_conflict(out: Predicate | None, src: Predicate | None
+                       ) -> tuple[Conflict, str] | None:
+    """The output and the source say opposite things about one answer: the same verb negated on
+    one side only ("did not approve" / "approved"), or verbs that are WordNet antonyms
+    ("fell" / "rose").  Not when the source's sentence also has the output's verb with the
+    output's polarity ("rose in May but fell in June"): the QA model may have located the
+    answer at the other verb."""
+    if out is None or src is None or (out.lemma, out.negated) in src.in_sentence:
+        return None
+    if out.lemma == src.lemma and out.negated != src.negated:
+        return "negation", f"{out.text} vs {src.text}"
+    if (out.lemma != src.lemma and out.negated == src.negated
+            and not {out.lemma, src.lemma} & _LIGHT_VERBS
+            and (src.lemma in antonyms(out.lemma) or out.lemma in antonyms(src.lemma))):
+        return "opposite", f"{out.text} vs {src.text}"
+    return None
+
+
+#: verbs whose meaning is in their object: "gave Sociedad the lead" and "took the lead" say one
+#: thing, though WordNet lists give/take, come/go and bring/take as antonyms
+_LIGHT_VERBS = frozenset({"give", "take", "get", "make", "have", "do", "go", "come", "put", "set",
+                          "bring", "keep", "let", "be"})
+
+
+def _match(output_answer: str, source_answer: str, span_kind: str,
+           source_kinds: Callable[[], frozenset[str]] | None) -> AnswerMatch:
+    """The answers alone compared (``match_answers`` without the predicates)."""
     output_answer, source_answer = join_hyphens(output_answer), join_hyphens(source_answer)
     f1 = token_f1(output_answer, source_answer)
     na, nb = normalize_answer(output_answer), normalize_answer(source_answer)

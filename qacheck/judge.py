@@ -222,11 +222,19 @@ def judge_sentence(s: SentenceResult, model: SentenceModel, thr: Thresholds) -> 
     hit = _first_conflict(s.questions)
     if hit is not None:
         q = s.questions[hit]
-        why = (f'{_CONFLICT_WORDS[q.conflict]}: asked "{q.question}", the output answers '
-               f'"{q.output_answer}", the source "{q.source_answer}" (a rule; flags of this kind '
-               f'were right {model.conflict_precision_:.0%} of the time on development data)')
-        reason = Reason(q.conflict, why, p, cut, hit,
-                        f'source says "{q.source_answer}"')
+        rule_note = (f"(a rule; flags of this kind were right {model.conflict_precision_:.0%} "
+                     "of the time on development data)")
+        if q.match_kind == "predicate":  # same answer, opposite statements about it
+            said, source_said = q.conflict_detail.split(" vs ", 1)
+            why = (f'{_CONFLICT_WORDS[q.conflict]}: asked "{q.question}", both texts answer '
+                   f'"{q.output_answer}", but the output says "{said}" where the source says '
+                   f'"{source_said}" {rule_note}')
+            fix = f'source says "{source_said}"'
+        else:
+            why = (f'{_CONFLICT_WORDS[q.conflict]}: asked "{q.question}", the output answers '
+                   f'"{q.output_answer}", the source "{q.source_answer}" {rule_note}')
+            fix = f'source says "{q.source_answer}"'
+        reason = Reason(q.conflict, why, p, cut, hit, fix)
         return replace(s, score=p, label="contradicted",
                        evidence={k: round(v, 4) for k, v in feats.items()}, reason=reason)
     done = replace(s, score=p,

@@ -32,7 +32,8 @@ from qacheck.models.qa import Answer, QAModel
 from qacheck.models.qg import QGModel
 from qacheck.results import ClaimResult, PairResult, QuestionResult, SentenceResult
 from qacheck.retrieval import Passage, passage
-from qacheck.segment import SPACY_MODEL, Sentence, Span, entity_kinds_at, segment_many
+from qacheck.segment import (SPACY_MODEL, Sentence, Span, entity_kinds_at, predicate_of,
+                             segment_many)
 from qacheck.words import novel_words
 
 
@@ -168,8 +169,12 @@ class Checker:
         for (cand, drafter, question, out_ans), src_ans in zip(kept, src_answers):
             answered = src_ans.no_answer_prob <= thr.no_answer and src_ans.has_answer
             src = pairs[cand.pair][0]
-            m = match_answers(out_ans.text, src_ans.text, cand.span.kind,
-                              lambda src=src, a=src_ans: entity_kinds_at(src, a.start, a.end))
+            m = match_answers(
+                out_ans.text, src_ans.text, cand.span.kind,
+                lambda src=src, a=src_ans: entity_kinds_at(src, a.start, a.end),
+                lambda src=src, a=src_ans, c=cand: (
+                    predicate_of(c.sentence_text, c.span.start, c.span.end),
+                    predicate_of(src, a.start, a.end)))
             outcome, score = question_outcome(m.agreement, m.conflict, src_ans.no_answer_prob, thr)
             by_pair[cand.pair][cand.sentence].questions.append(QuestionResult(
                 question=question, drafter=drafter, span=cand.span.text, span_kind=cand.span.kind,

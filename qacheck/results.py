@@ -33,7 +33,7 @@ class QuestionResult:
     source_end: int | None
     no_answer_prob: float
     f1: float
-    match_kind: str  # how the answers were compared: text | amount | time | date | name
+    match_kind: str  # how the answers were compared: text | amount | time | date | name | predicate
     same: bool  # the two answers name the same text or value
     conflict: str | None  # a typed conflict: value | opposite | negation | name
     conflict_detail: str

@@ -172,6 +172,84 @@ def _kinds_in_sentence(sentence: str, start: int, end: int) -> frozenset[str]:
                      if ent.start_char < end and start < ent.end_char)
 
 
+@dataclass(frozen=True)
+class Predicate:
+    """The verb (or copula) that an answer is an argument of, as spaCy parses its sentence:
+    its lemma, whether it is negated ("did not approve", "never approved") and its words;
+    ``in_sentence`` holds (lemma, negated) of every verb of that sentence."""
+
+    lemma: str
+    negated: bool
+    text: str
+    in_sentence: frozenset[tuple[str, bool]] = frozenset()
+
+
+#: dependents that negate their head, beyond spaCy's ``neg`` relation
+_NEGATING = frozenset({"not", "n't", "never", "no"})
+
+
+def predicate_of(text: str, start: int | None, end: int | None) -> Predicate | None:
+    """The predicate governing ``text[start:end]`` in its sentence, or None.
+
+    From the answer's own head, up the parse to the first verb or auxiliary
+    ("412" in "Vessel calls rose to 412" -> rose).  Only the one sentence is
+    parsed, and only for a question whose two answers already agree.
+    """
+    if start is None or end is None:
+        return None
+    for s, e in sentence_bounds(text):
+        if s <= start < e:
+            return _predicate_in_sentence(text[s:e], start - s, min(end, e) - s)
+    return None
+
+
+@lru_cache(maxsize=1024)
+def _predicate_in_sentence(sentence: str, start: int, end: int) -> Predicate | None:
+    doc = nlp()(sentence)
+    inside = [t for t in doc if t.idx < end and start < t.idx + len(t)]
+    if not inside:
+        return None
+    tok = next((t for t in inside if not (start <= t.head.idx < end) or t.head is t), inside[0])
+    for _ in range(len(doc)):
+        if tok.pos_ in ("VERB", "AUX") and tok.dep_ not in ("aux", "auxpass"):
+            break
+        if tok.head is tok:
+            return None
+        tok = tok.head
+    else:
+        return None
+    shown = [tok, *(c for c in tok.children
+                    if c.dep_ in ("neg", "aux", "auxpass") or c.lower_ in _NEGATING
+                    or c.dep_ in ("dobj", "attr", "nsubjpass", "pobj") and (
+                        c.lower_ in _NOTHING or any(d.lower_ == "no" for d in c.children)))]
+    if tok.dep_ == "xcomp" and tok.head.lemma_.lower() in _DENYING:
+        shown.append(tok.head)
+    shown += [d for c in shown[1:] if c.dep_ != "neg" for d in c.children if d.lower_ == "no"]
+    words = " ".join(t.text for t in sorted(set(shown), key=lambda t: t.i))
+    verbs = frozenset((t.lemma_.lower(), _negated(t)) for t in doc
+                      if t.pos_ in ("VERB", "AUX") and t.dep_ not in ("aux", "auxpass"))
+    return Predicate(tok.lemma_.lower(), _negated(tok), words, verbs)
+
+
+#: verbs that deny the verb they govern ("failed to score" says it did not score)
+_DENYING = frozenset({"fail", "refuse", "decline", "neglect", "avoid", "forget", "deny", "cease",
+                      "unable"})
+#: objects that deny their verb ("found nothing" says it did not find anything)
+_NOTHING = frozenset({"nothing", "none", "nobody", "no one", "nowhere"})
+
+
+def _negated(tok) -> bool:
+    """Negated by a ``not``/``never`` of its own, by an object with "no" ("found no proof"),
+    an object such as "nothing", or a denying verb above it ("failed to score")."""
+    if any(c.dep_ == "neg" or c.lower_ in _NEGATING for c in tok.children):
+        return True
+    for c in tok.children:
+        if c.dep_ in ("dobj", "attr", "nsubjpass", "pobj") and (
+                c.lower_ in _NOTHING or any(d.lower_ == "no" for d in c.children)):
+            return True
+    return tok.dep_ == "xcomp" and tok.head.lemma_.lower() in _DENYING
+
+
 def segment(text: str, max_spans: int = 6) -> list[Sentence]:
     """Sentences of ``text`` with their answer spans, offsets kept."""
     return segment_many([text], max_spans)[0]

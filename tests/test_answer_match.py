@@ -205,3 +205,39 @@ def test_a_negation_conflicts_only_when_the_rest_says_the_same():
 def test_a_person_named_twice_is_one_name(a, b, kind, same):
     m = match_answers(a, b, kind)
     assert (m.same, m.conflict) == ((True, None) if same else (False, "name")), (a, b, m)
+
+
+@pytest.mark.parametrize("out,src,expected", [
+    (("approve", True, "did not approve"), ("approve", False, "approved"), "negation"),
+    (("fall", False, "fell"), ("rise", False, "rose"), "opposite"),  # WordNet 3.0 antonyms
+    (("fall", False, "fell"), ("fall", False, "fell"), None),
+    (("delay", False, "delayed"), ("approve", False, "approved"), None),  # not opposites
+])
+def test_opposite_statements_about_one_answer(out, src, expected):
+    from qacheck.answer_match import predicate_conflict
+    from qacheck.opposites import wordnet_available
+    from qacheck.segment import Predicate
+
+    if expected == "opposite" and not wordnet_available():
+        pytest.skip("WordNet 3.0 is not installed (Debian package wordnet-base)")
+    po, ps = Predicate(*out), Predicate(*src, frozenset({src[:2]}))
+    found = predicate_conflict(po, ps)
+    assert (found and found[0]) == expected, found
+    # the source sentence also says what the output says (at another verb): no conflict
+    both = Predicate(*src, frozenset({src[:2], out[:2]}))
+    assert predicate_conflict(po, both) is None
+
+
+def test_the_predicate_of_an_answer_comes_from_the_parse():
+    """spaCy's parse (en_core_web_sm): from the answer's head up to its verb, with negation."""
+    from qacheck.segment import predicate_of
+
+    text = "The board did not approve the budget, although calls rose to 412."
+    at = lambda a: predicate_of(text, text.index(a), text.index(a) + len(a))  # noqa: E731
+    p = at("the budget")
+    assert (p.lemma, p.negated, p.text) == ("approve", True, "did not approve")
+    p = at("412")
+    assert (p.lemma, p.negated) == ("rise", False) and ("approve", True) in p.in_sentence
+    m = match_answers("the budget", "the budget", "", None,
+                      lambda: (at("the budget"), predicate_of("It approved the budget.", 12, 22)))
+    assert m.conflict == "negation" and m.kind == "predicate" and not m.same

@@ -40,7 +40,7 @@ def test_harness_on_fixed_sample_beats_floor(fixed_sample):
 @pytest.mark.slow
 def test_harness_beats_rouge_baseline(fixed_sample):
     """The issue's bar: a figure that does not beat the ROUGE-L precision baseline is a failure.
-    (The pair model was fitted on 100-record samples of these files, so this sample overlaps
+    (The sentence model was fitted on 300-record samples of these files, so this sample overlaps
     its fitting data; the held-out-file figures are in README.)"""
     files = fixed_sample["files"].values()
     ours = sum(f["roc_auc"] for f in files) / 3

@@ -31,12 +31,17 @@ CONTRADICTIONS = [
     ("Caldreth held 41 percent of the regional container trade this year, down from 58 percent "
      "a year earlier.", "Caldreth held 58 percent of the regional container trade this year.",
      "41 percent"),
+    # the same answer, the opposite statement about it (SummEdits' antonym and negation edits)
+    ("Vessel calls rose to 412 in the first quarter.",
+     "Vessel calls fell to 412 in the first quarter.", "rose"),
+    ("The harbour board approved the dredging budget on Tuesday.",
+     "The harbour board did not approve the dredging budget on Tuesday.", "approved"),
 ]
 
 
 @pytest.mark.parametrize("source,output,fix", CONTRADICTIONS,
                          ids=["time", "money", "scaled", "count", "votes", "direction", "name",
-                              "two-years"])
+                              "two-years", "opposite-verb", "negated-verb"])
 def test_changed_fact_is_contradicted_with_the_source_value_as_fix(checker, source, output, fix):
     r = checker.check(source, output)
     s = r.sentences[0]
@@ -52,6 +57,10 @@ def test_changed_fact_is_contradicted_with_the_source_value_as_fix(checker, sour
     (MEETING, "The meeting closed at 21:20."),
     ("Repairs to the north quay cost 2.4 million crowns.",
      "Repairs to the north quay cost about 2.4 million crowns."),
+    # the source has both verbs, or a negation on another verb: nothing is reversed
+    ("Vessel calls rose in March but fell in April.", "Vessel calls fell in April."),
+    ("The board, which had not met since March, approved the dredging budget.",
+     "The board approved the dredging budget."),
 ])
 def test_same_fact_at_another_precision_or_in_another_form_is_supported(checker, source, output):
     r = checker.check(source, output)
