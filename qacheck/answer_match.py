@@ -145,7 +145,7 @@ def match_answers(output_answer: str, source_answer: str, span_kind: str = "",
     """
     m = _match(output_answer, source_answer, span_kind, source_kinds)
     if m.conflict is None and (m.same or m.f1 >= PREDICATE_CHECK_F1) and predicates is not None:
-        found = predicate_conflict(*predicates())
+        found = predicate_conflict(*predicates(), join_hyphens(output_answer), span_kind)
         if found is not None:
             return replace(m, same=False, kind="predicate", conflict=found[0], detail=found[1])
     return m
@@ -155,14 +155,31 @@ def match_answers(output_answer: str, source_answer: str, span_kind: str = "",
 PREDICATE_CHECK_F1 = 0.5
 
 
-def predicate_conflict(out: Predicate | None, src: Predicate | None
-                       ) -> tuple[Conflict, str] | None:
-    """The output and the source say opposite things about one answer: the same verb negated on
-    one side only ("did not approve" / "approved"), or verbs that are WordNet antonyms
-    ("fell" / "rose").  Not when the source's sentence also has the output's verb with the
-    output's polarity ("rose in May but fell in June"): the QA model may have located the
-    answer at the other verb."""
-    if out is None or src is None or (out.lemma, out.negated) in src.in_sentence:
+def predicate_conflict(out: Predicate | None, src: Predicate | None, output_answer: str = "",
+                       span_kind: str = "") -> tuple[Conflict, str] | None:
+    """The output and the source say different things about one answer.
+
+    * the same verb negated on one side only ("did not approve" / "approved");
+    * verbs that are WordNet antonyms ("fell" / "rose");
+    * for a name: the source's sentence gives the output's verb, in the answer's role, to
+      another name ("Bram Okonedo chaired ... and Edda Quimby took the minutes" against "Edda
+      Quimby chaired ... and Bram Okonedo took the minutes": the QA model finds Bram Okonedo in
+      the source, at "took").
+
+    The first two not when the source's sentence also has the output's verb with the output's
+    polarity ("rose in May but fell in June"): the QA model may have located the answer at the
+    other verb."""
+    if out is None or src is None:
+        return None
+    if (span_kind in NAME_KINDS and out.role in ("nsubj", "nsubjpass", "dobj")
+            and out.lemma not in _LIGHT_VERBS):
+        others = [a for lemma, role, a in src.arguments if lemma == out.lemma and role == out.role]
+        if others and all(_looks_like_name(a) and not _same_name(a, output_answer, span_kind)
+                           and fuzz.token_set_ratio(normalize_answer(a),
+                                                    normalize_answer(output_answer)) < 100
+                           for a in others):
+            return "name", f"{output_answer} {out.text} vs {others[0]} {out.text}"
+    if (out.lemma, out.negated) in src.in_sentence:
         return None
     if out.lemma == src.lemma and out.negated != src.negated:
         return "negation", f"{out.text} vs {src.text}"
@@ -222,8 +239,12 @@ def _same_name(a: str, b: str, span_kind: str = "") -> bool:
         return True
     if span_kind != "PERSON":
         return False
-    names = lambda t: {w.lower().removesuffix("'s") for w in re.findall(r"[^\W\d_][\w'-]*", t)  # noqa: E731
-                       if w[0].isupper() and w.lower().rstrip(".") not in _TITLES}
+    def names(t: str) -> set[str]:
+        """Its name words: capitalised ones, or every word of an all-lower-case text."""
+        return {w.lower().removesuffix("'s") for w in re.findall(r"[^\W\d_][\w'-]*", t)
+                if (w[0].isupper() or t.islower()) and w.lower().rstrip(".") not in _TITLES
+                and w.lower() not in _NAME_GLUE}
+
     return bool(names(a) & names(b))
 
 

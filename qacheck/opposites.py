@@ -22,7 +22,17 @@ _DIRECTIONS = {"north": "south", "east": "west", "northern": "southern", "easter
                "eastbound": "westbound", "northeastern": "southwestern",
                "northwestern": "southeastern", "upstream": "downstream", "inbound": "outbound",
                "upper": "lower", "uphill": "downhill", "upward": "downward", "up": "down"}
-_OPPOSITE = {**_DIRECTIONS, **{v: k for k, v in _DIRECTIONS.items()}}
+#: verbs of news and reports that state opposite outcomes, which WordNet 3.0 does not list as
+#: antonyms (checked against the installed database; the pairs are common English usage)
+_VERB_OPPOSITES = {"approve": "reject", "confirm": "deny", "allow": "ban", "support": "oppose",
+                   "gain": "lose", "expand": "shrink", "grow": "shrink", "lift": "impose",
+                   "extend": "shorten", "praise": "criticise", "arrive": "depart",
+                   "acquit": "convict", "accept": "decline", "raise": "cut"}
+_PAIRS = {**_DIRECTIONS, **_VERB_OPPOSITES}
+_OPPOSITE: dict[str, set[str]] = {}
+for _a, _b in _PAIRS.items():
+    _OPPOSITE.setdefault(_a, set()).add(_b)
+    _OPPOSITE.setdefault(_b, set()).add(_a)
 
 #: words that negate what follows; "n't" is split off by the tokeniser below
 NEGATORS = frozenset({"not", "no", "never", "n't", "without", "none", "nobody", "nothing",
@@ -102,12 +112,14 @@ def wordnet_available() -> bool:
 
 @lru_cache(maxsize=16384)
 def antonyms(word: str) -> frozenset[str]:
-    """Every WordNet antonym of any base form of ``word`` (all parts of speech), plus directions."""
-    out = {_OPPOSITE[word]} if word in _OPPOSITE else set()
+    """Every WordNet antonym of any base form of ``word`` (all parts of speech), plus the
+    directions and report verbs of the tables above ("rejected" -> approve)."""
+    out = set(_OPPOSITE.get(word, ()))
     wn = _wordnet()
     if wn is not None:
         for pos in ("a", "s", "r", "v", "n"):
             for base in {word, *(wn._morphy(word, pos) or [])}:
+                out.update(_OPPOSITE.get(base, ()))
                 for lemma in wn.lemmas(base, pos):
                     out.update(a.name().lower() for a in lemma.antonyms())
     return frozenset(out)

@@ -176,12 +176,17 @@ def _kinds_in_sentence(sentence: str, start: int, end: int) -> frozenset[str]:
 class Predicate:
     """The verb (or copula) that an answer is an argument of, as spaCy parses its sentence:
     its lemma, whether it is negated ("did not approve", "never approved") and its words;
-    ``in_sentence`` holds (lemma, negated) of every verb of that sentence."""
+    ``in_sentence`` holds (lemma, negated) of every verb of that sentence; ``role`` is the
+    answer's place under the verb (``nsubj``, ``dobj``, ``prep:on``...), and ``arguments``
+    holds (lemma, role, argument text) for the subjects, objects and prepositional objects of
+    every verb of the sentence ("chair", "nsubj", "Edda Quimby")."""
 
     lemma: str
     negated: bool
     text: str
     in_sentence: frozenset[tuple[str, bool]] = frozenset()
+    role: str = ""
+    arguments: frozenset[tuple[str, str, str]] = frozenset()
 
 
 #: dependents that negate their head, beyond spaCy's ``neg`` relation
@@ -210,12 +215,14 @@ def _predicate_in_sentence(sentence: str, start: int, end: int) -> Predicate | N
     if not inside:
         return None
     tok = next((t for t in inside if not (start <= t.head.idx < end) or t.head is t), inside[0])
+    answer_root = tok
+    below = None  # the token on the path from the answer right under the verb
     for _ in range(len(doc)):
         if tok.pos_ in ("VERB", "AUX") and tok.dep_ not in ("aux", "auxpass"):
             break
         if tok.head is tok:
             return None
-        tok = tok.head
+        below, tok = tok, tok.head
     else:
         return None
     shown = [tok, *(c for c in tok.children
@@ -228,7 +235,37 @@ def _predicate_in_sentence(sentence: str, start: int, end: int) -> Predicate | N
     words = " ".join(t.text for t in sorted(set(shown), key=lambda t: t.i))
     verbs = frozenset((t.lemma_.lower(), _negated(t)) for t in doc
                       if t.pos_ in ("VERB", "AUX") and t.dep_ not in ("aux", "auxpass"))
-    return Predicate(tok.lemma_.lower(), _negated(tok), words, verbs)
+    # a role only for an answer that is itself the verb's dependent: not a conjunct ("Scott and
+    # Mary"), not a modifier ("Police in Manchester")
+    role = _role(below) if below is not None and below is answer_root else ""
+    return Predicate(tok.lemma_.lower(), _negated(tok), words, verbs, role, _arguments(doc))
+
+
+#: the dependency relations that name a verb's participants
+_ARGUMENT_DEPS = ("nsubj", "nsubjpass", "dobj")
+
+
+def _role(tok) -> str:
+    """A verb's child as a role: its relation, or ``prep:on`` for a prepositional phrase."""
+    return f"prep:{tok.lower_}" if tok.dep_ == "prep" else tok.dep_
+
+
+def _arguments(doc) -> frozenset[tuple[str, str, str]]:
+    """(verb lemma, role, argument text) for every verb's subjects, objects and prepositional
+    objects; an argument is its compound name ("Edda Quimby"), not its whole subtree."""
+    out = set()
+    for verb in doc:
+        if verb.pos_ not in ("VERB", "AUX") or verb.dep_ in ("aux", "auxpass"):
+            continue
+        for c in verb.children:
+            heads = ([c] if c.dep_ in _ARGUMENT_DEPS
+                     else [g for g in c.children if g.dep_ == "pobj"] if c.dep_ == "prep" else [])
+            heads += [g for h in heads for g in h.subtree if g.dep_ == "conj"]  # "X and Y"
+            for h in heads:
+                name = [t for t in h.subtree if t.i <= h.i and (t is h or t.dep_ == "compound"
+                                                                 or t.pos_ == "PROPN")]
+                out.add((verb.lemma_.lower(), _role(c), " ".join(t.text for t in name)))
+    return frozenset(out)
 
 
 #: verbs that deny the verb they govern ("failed to score" says it did not score)

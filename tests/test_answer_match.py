@@ -147,6 +147,21 @@ def test_antonyms_come_from_wordnet():
     assert "lose" in antonyms("win")
 
 
+def test_report_verbs_wordnet_does_not_pair_are_opposites_in_any_form():
+    from qacheck.opposites import antonyms, opposite_pair, wordnet_available
+
+    if not wordnet_available():
+        pytest.skip("WordNet 3.0 is not installed (Debian package wordnet-base)")
+    # not antonyms in WordNet 3.0 (checked against the installed database) ...
+    from qacheck.opposites import _wordnet
+
+    wn = _wordnet()
+    assert not any(a.name() == "reject" for l in wn.lemmas("approve", "v") for a in l.antonyms())
+    # ... yet a report that says "rejected" where the source says "approved" reverses it
+    assert "approve" in antonyms("rejected") and "reject" in antonyms("approves")
+    assert opposite_pair("approved", "rejected") == ("approved", "rejected")
+
+
 # --- what the QA model's answers look like on generated text (kinds seen in annotated news
 # summaries, Cao & Wang 2021; the strings below are invented) --------------------------------
 
@@ -241,3 +256,22 @@ def test_the_predicate_of_an_answer_comes_from_the_parse():
     m = match_answers("the budget", "the budget", "", None,
                       lambda: (at("the budget"), predicate_of("It approved the budget.", 12, 22)))
     assert m.conflict == "negation" and m.kind == "predicate" and not m.same
+
+
+def test_a_name_given_another_role_by_the_source_is_a_name_conflict():
+    """The source gives the output's verb, in the answer's role, to another name."""
+    from qacheck.answer_match import predicate_conflict
+    from qacheck.segment import predicate_of
+
+    src = "Edda Quimby chaired the meeting, and Bram Okonedo took the minutes."
+    out = "Bram Okonedo chaired the meeting, and Edda Quimby took the minutes."
+    at = lambda t, a: predicate_of(t, t.index(a), t.index(a) + len(a))  # noqa: E731
+    po, ps = at(out, "Bram Okonedo"), at(src, "Bram Okonedo")
+    assert (po.lemma, po.role, ps.lemma) == ("chair", "nsubj", "take")
+    assert ("chair", "nsubj", "Edda Quimby") in ps.arguments
+    kind, detail = predicate_conflict(po, ps, "Bram Okonedo", "PERSON")
+    assert kind == "name" and detail == "Bram Okonedo chaired vs Edda Quimby chaired"
+    # the same person by surname, or a span that is not a name: no conflict
+    assert predicate_conflict(at(src, "Edda Quimby"), ps, "Quimby", "PERSON") is None
+    assert predicate_conflict(po, ps, "Bram Okonedo", "CHUNK") is None
+    assert predicate_conflict(po, ps, "edda quimby", "PERSON") is None  # lower-cased output

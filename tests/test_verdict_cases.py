@@ -36,12 +36,19 @@ CONTRADICTIONS = [
      "Vessel calls fell to 412 in the first quarter.", "rose"),
     ("The harbour board approved the dredging budget on Tuesday.",
      "The harbour board did not approve the dredging budget on Tuesday.", "approved"),
+    ("The harbour board approved a survey of the outer basin.",
+     "The harbour board rejected a survey of the outer basin.", "approved"),
+    # two names trading places in one sentence: each answer is in the source, at the other verb
+    ("Edda Quimby chaired the meeting on Tuesday, and Bram Okonedo took the minutes.",
+     "Bram Okonedo chaired the meeting on Tuesday, and Edda Quimby took the minutes.",
+     "Edda Quimby chaired"),
 ]
 
 
 @pytest.mark.parametrize("source,output,fix", CONTRADICTIONS,
                          ids=["time", "money", "scaled", "count", "votes", "direction", "name",
-                              "two-years", "opposite-verb", "negated-verb"])
+                              "two-years", "opposite-verb", "negated-verb", "report-verb",
+                              "swapped-names"])
 def test_changed_fact_is_contradicted_with_the_source_value_as_fix(checker, source, output, fix):
     r = checker.check(source, output)
     s = r.sentences[0]
@@ -61,6 +68,8 @@ def test_changed_fact_is_contradicted_with_the_source_value_as_fix(checker, sour
     ("Vessel calls rose in March but fell in April.", "Vessel calls fell in April."),
     ("The board, which had not met since March, approved the dredging budget.",
      "The board approved the dredging budget."),
+    ("Edda Quimby chaired the meeting on Tuesday, and Bram Okonedo took the minutes.",
+     "Quimby chaired the meeting, and Okonedo took the minutes."),
 ])
 def test_same_fact_at_another_precision_or_in_another_form_is_supported(checker, source, output):
     r = checker.check(source, output)
