@@ -67,7 +67,7 @@ class Thresholds:
 
 #: bumped whenever a rule that shapes a verdict changes (answer matching, judging, segmenting),
 #: so results from older rules never mix with new ones in a cache or a baseline
-RULES_REVISION = 13
+RULES_REVISION = 14
 
 
 def signature(models: dict[str, str], thresholds: Thresholds,

@@ -2,7 +2,8 @@
 
 A line break always ends a sentence, and a bullet or list marker at the
 start of a line is not part of its sentence: generated reports put one claim
-per bullet, often without a full stop.  A span is a checkable unit of content: a named entity, a number, date,
+per bullet, often without a full stop.  A heading that ends in a colon and has
+no verb ("Key figures:") states nothing and is left out.  A span is a checkable unit of content: a named entity, a number, date,
 quantity or amount of money, or a noun chunk.  Pronouns and chunks made only
 of stop words carry no checkable fact and are dropped; overlapping spans keep
 the entity (more specific) over the chunk.
@@ -292,6 +293,12 @@ def segment(text: str, max_spans: int = 6) -> list[Sentence]:
     return segment_many([text], max_spans)[0]
 
 
+def _lead_in(sent) -> bool:
+    """A heading or lead-in line ("Summary of the meeting:", "Key figures:"): it ends in a
+    colon and has no verb, so it states nothing to check and is not a sentence to judge."""
+    return sent.text.rstrip().endswith(":") and not any(t.pos_ in ("VERB", "AUX") for t in sent)
+
+
 def segment_many(texts: list[str], max_spans: int = 6) -> list[list[Sentence]]:
     """Segment several texts in one spaCy pass (``nlp.pipe`` batches them)."""
     out = []
@@ -303,7 +310,7 @@ def segment_many(texts: list[str], max_spans: int = 6) -> list[list[Sentence]]:
                 continue  # a list marker the parser left on its own
             cut = _BULLET.match(text)
             k = cut.end() if cut else len(text) - len(text.lstrip())
-            if not text[k:].strip():
+            if not text[k:].strip() or _lead_in(sent):
                 continue
             spans = tuple(replace(sp, start=sp.start - k, end=sp.end - k,
                                   ask_start=max(0, sp.ask_start - k), ask_end=sp.ask_end - k)

@@ -105,6 +105,16 @@ def test_bullets_and_line_breaks_are_sentences(checker):
     assert [output[s.start:s.end] for s in r.sentences] == [s.text for s in r.sentences]
 
 
+def test_a_heading_with_a_colon_states_nothing_and_is_not_judged(checker):
+    """A lead-in line of a generated report ("Port summary:") used to score as an unsupported
+    sentence and pull the pair score down; a line with a verb before its colon is a claim."""
+    source = "Vessel calls rose to 412 in the first quarter. The north quay reopened in May."
+    r = checker.check(source, "Port summary:\n- Vessel calls rose to 412\n"
+                              "The north quay reopened in May:\n- after repairs")
+    assert [s.text for s in r.sentences] == ["Vessel calls rose to 412",
+                                             "The north quay reopened in May:", "after repairs"]
+
+
 def test_pair_verdict_follows_from_its_sentences(checker):
     source = "Vessel calls rose to 412 in the first quarter. The north quay reopened in May."
     r = checker.check(source, "Vessel calls rose to 517 in the first quarter. "
