@@ -135,13 +135,14 @@ def match_answers(output_answer: str, source_answer: str, span_kind: str = "",
     ``predicates`` gives the verbs the two answers are arguments of; asked only
     when the answers agree, it turns agreement into a conflict when the two
     texts say opposite things about the same answer (``predicate_conflict``).
-    Hyphens are compared unspaced (``join_hyphens``).  In order: identical text; a value conflict; a one-sided negation; an
-    opposite word; the same value; for a name question, one name written two
-    ways or one person named twice (``_same_name``) agrees, and two different
-    names conflict (neither holds the other: "Quimby" and "Edda Quimby" name
-    one person, "Bram Okonedo" and "Edda Quimby" two); one answer holding the other
-    (rapidfuzz's token-set ratio is 100, "the authority" / "Port of Caldreth
-    Authority"); otherwise token F1 decides.
+    Hyphens are compared unspaced (``join_hyphens``).  In order: identical
+    text; a value conflict; a one-sided negation; an opposite word; the same
+    value; for a name question, one name written two ways or one person named
+    twice (``_same_name``) agrees, and two different names conflict (neither
+    holds the other: "Quimby" and "Edda Quimby" name one person, "Bram Okonedo"
+    and "Edda Quimby" two); one answer holding the other (rapidfuzz's
+    token-set ratio is 100, "the authority" / "Port of Caldreth Authority");
+    otherwise token F1 decides.
     """
     m = _match(output_answer, source_answer, span_kind, source_kinds)
     if m.conflict is None and (m.same or m.f1 >= PREDICATE_CHECK_F1) and predicates is not None:
@@ -239,6 +240,7 @@ def _same_name(a: str, b: str, span_kind: str = "") -> bool:
         return True
     if span_kind != "PERSON":
         return False
+
     def names(t: str) -> set[str]:
         """Its name words: capitalised ones, or every word of an all-lower-case text."""
         return {w.lower().removesuffix("'s") for w in re.findall(r"[^\W\d_][\w'-]*", t)

@@ -28,11 +28,18 @@ _VERB_OPPOSITES = {"approve": "reject", "confirm": "deny", "allow": "ban", "supp
                    "gain": "lose", "expand": "shrink", "grow": "shrink", "lift": "impose",
                    "extend": "shorten", "praise": "criticise", "arrive": "depart",
                    "acquit": "convict", "accept": "decline", "raise": "cut"}
-_PAIRS = {**_DIRECTIONS, **_VERB_OPPOSITES}
-_OPPOSITE: dict[str, set[str]] = {}
-for _a, _b in _PAIRS.items():
-    _OPPOSITE.setdefault(_a, set()).add(_b)
-    _OPPOSITE.setdefault(_b, set()).add(_a)
+
+
+def _both_ways(pairs: dict[str, str]) -> dict[str, frozenset[str]]:
+    """Each word of a table of opposites, with every word it is opposite to."""
+    out: dict[str, set[str]] = {}
+    for a, b in pairs.items():
+        out.setdefault(a, set()).add(b)
+        out.setdefault(b, set()).add(a)
+    return {w: frozenset(v) for w, v in out.items()}
+
+
+_OPPOSITE = _both_ways({**_DIRECTIONS, **_VERB_OPPOSITES})
 
 #: words that negate what follows; "n't" is split off by the tokeniser below
 NEGATORS = frozenset({"not", "no", "never", "n't", "without", "none", "nobody", "nothing",

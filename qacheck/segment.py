@@ -159,12 +159,18 @@ def entity_kinds_at(text: str, start: int | None, end: int | None) -> frozenset[
     tries a flick ...") spaCy sees a person.  Only the one sentence is parsed,
     and only when a name conflict is about to be called.
     """
+    at = _in_sentence(text, start, end)
+    return _kinds_in_sentence(*at) if at else frozenset()
+
+
+def _in_sentence(text: str, start: int | None, end: int | None) -> tuple[str, int, int] | None:
+    """The sentence of ``text`` that holds ``start``, with the range in its own offsets."""
     if start is None or end is None:
-        return frozenset()
+        return None
     for s, e in sentence_bounds(text):
         if s <= start < e:
-            return _kinds_in_sentence(text[s:e], start - s, min(end, e) - s)
-    return frozenset()
+            return text[s:e], start - s, min(end, e) - s
+    return None
 
 
 @lru_cache(maxsize=1024)
@@ -201,12 +207,8 @@ def predicate_of(text: str, start: int | None, end: int | None) -> Predicate | N
     ("412" in "Vessel calls rose to 412" -> rose).  Only the one sentence is
     parsed, and only for a question whose two answers already agree.
     """
-    if start is None or end is None:
-        return None
-    for s, e in sentence_bounds(text):
-        if s <= start < e:
-            return _predicate_in_sentence(text[s:e], start - s, min(end, e) - s)
-    return None
+    at = _in_sentence(text, start, end)
+    return _predicate_in_sentence(*at) if at else None
 
 
 @lru_cache(maxsize=1024)
@@ -226,14 +228,8 @@ def _predicate_in_sentence(sentence: str, start: int, end: int) -> Predicate | N
         below, tok = tok, tok.head
     else:
         return None
-    shown = [tok, *(c for c in tok.children
-                    if c.dep_ in ("neg", "aux", "auxpass") or c.lower_ in _NEGATING
-                    or c.dep_ in ("dobj", "attr", "nsubjpass", "pobj") and (
-                        c.lower_ in _NOTHING or any(d.lower_ == "no" for d in c.children)))]
-    if tok.dep_ == "xcomp" and tok.head.lemma_.lower() in _DENYING:
-        shown.append(tok.head)
-    shown += [d for c in shown[1:] if c.dep_ != "neg" for d in c.children if d.lower_ == "no"]
-    words = " ".join(t.text for t in sorted(set(shown), key=lambda t: t.i))
+    shown = {tok, *(c for c in tok.children if c.dep_ in ("aux", "auxpass")), *_negators(tok)}
+    words = " ".join(t.text for t in sorted(shown, key=lambda t: t.i))
     verbs = frozenset((t.lemma_.lower(), _negated(t)) for t in doc
                       if t.pos_ in ("VERB", "AUX") and t.dep_ not in ("aux", "auxpass"))
     # a role only for an answer that is itself the verb's dependent: not a conjunct ("Scott and
@@ -276,16 +272,22 @@ _DENYING = frozenset({"fail", "refuse", "decline", "neglect", "avoid", "forget",
 _NOTHING = frozenset({"nothing", "none", "nobody", "no one", "nowhere"})
 
 
-def _negated(tok) -> bool:
-    """Negated by a ``not``/``never`` of its own, by an object with "no" ("found no proof"),
-    an object such as "nothing", or a denying verb above it ("failed to score")."""
-    if any(c.dep_ == "neg" or c.lower_ in _NEGATING for c in tok.children):
-        return True
+def _negators(tok) -> list:
+    """The words that negate a verb: a ``not``/``never`` of its own, an object with "no"
+    ("found no proof", both words), an object such as "nothing", or a denying verb above it
+    ("failed to score")."""
+    out = [c for c in tok.children if c.dep_ == "neg" or c.lower_ in _NEGATING]
     for c in tok.children:
-        if c.dep_ in ("dobj", "attr", "nsubjpass", "pobj") and (
-                c.lower_ in _NOTHING or any(d.lower_ == "no" for d in c.children)):
-            return True
-    return tok.dep_ == "xcomp" and tok.head.lemma_.lower() in _DENYING
+        no = [d for d in c.children if d.lower_ == "no"]
+        if c.dep_ in ("dobj", "attr", "nsubjpass", "pobj") and (c.lower_ in _NOTHING or no):
+            out += [c, *no]
+    if tok.dep_ == "xcomp" and tok.head.lemma_.lower() in _DENYING:
+        out.append(tok.head)
+    return out
+
+
+def _negated(tok) -> bool:
+    return bool(_negators(tok))
 
 
 def segment(text: str, max_spans: int = 6) -> list[Sentence]:

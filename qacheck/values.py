@@ -216,9 +216,6 @@ def _amounts(text: str, taken: list[tuple[int, int]]) -> list[Value]:
     return out
 
 
-
-
-
 @lru_cache(maxsize=8192)
 def extract_values(text: str) -> tuple[Value, ...]:
     """Every value in ``text``: times, then dates, then amounts in what is left.
