@@ -174,8 +174,13 @@ def _in_sentence(text: str, start: int | None, end: int | None) -> tuple[str, in
 
 
 @lru_cache(maxsize=1024)
+def _parsed(sentence: str):
+    """One spaCy parse per sentence, however many of its answers are asked about."""
+    return nlp()(sentence)
+
+
 def _kinds_in_sentence(sentence: str, start: int, end: int) -> frozenset[str]:
-    return frozenset(ent.label_ for ent in nlp()(sentence).ents
+    return frozenset(ent.label_ for ent in _parsed(sentence).ents
                      if ent.start_char < end and start < ent.end_char)
 
 
@@ -211,9 +216,8 @@ def predicate_of(text: str, start: int | None, end: int | None) -> Predicate | N
     return _predicate_in_sentence(*at) if at else None
 
 
-@lru_cache(maxsize=1024)
 def _predicate_in_sentence(sentence: str, start: int, end: int) -> Predicate | None:
-    doc = nlp()(sentence)
+    doc = _parsed(sentence)
     inside = [t for t in doc if t.idx < end and start < t.idx + len(t)]
     if not inside:
         return None
